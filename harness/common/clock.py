@@ -1,0 +1,34 @@
+"""The shared clock: bay seconds, running ``time_scale`` times faster than real time.
+
+The simulated bay and the runner hold the same clock object, so physics (slew, heating,
+settling) and the runner's intervals and timeouts stay consistent at any time scale.
+"""
+
+from __future__ import annotations
+
+import threading
+import time
+
+
+class Clock:
+    def __init__(self, time_scale: float = 1.0):
+        if not time_scale > 0:
+            raise ValueError("time scale must be positive")
+        self.time_scale = float(time_scale)
+        self._t0 = time.monotonic()
+
+    def now(self) -> float:
+        """Bay seconds since the clock was made."""
+        return (time.monotonic() - self._t0) * self.time_scale
+
+    def sleep(self, bay_seconds: float) -> None:
+        if bay_seconds > 0:
+            time.sleep(bay_seconds / self.time_scale)
+
+    def wait(self, event: threading.Event, bay_seconds: float) -> bool:
+        """Wait on ``event`` for at most ``bay_seconds``; True if it was set."""
+        return event.wait(max(bay_seconds, 0.0) / self.time_scale)
+
+    def real(self, bay_seconds: float) -> float:
+        """The real-time length of ``bay_seconds`` (for socket timeouts)."""
+        return bay_seconds / self.time_scale

@@ -1,0 +1,97 @@
+"""Quantities written with units ("6.6 kV", "25 degC", "2.2 %") parsed once into SI floats.
+
+One pint registry for the product. A plain number is taken as already in the field's unit
+(SI: V, A, W, VA, Hz, ohm, s, rad; temperatures in degC, percentages in %).
+"""
+
+from __future__ import annotations
+
+import math
+from functools import lru_cache
+from typing import Annotated, Any
+
+import pint
+from pydantic import BeforeValidator, PlainSerializer, WithJsonSchema
+
+UREG = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+
+# What each field unit accepts, with a word for error messages. Angles and percentages are
+# both dimensionless to pint, so they are told apart by the units allowed.
+_KINDS: dict[str, str] = {
+    "V": "a voltage", "A": "a current", "W": "a power", "VA": "an apparent power",
+    "Hz": "a frequency", "ohm": "a resistance", "degC": "a temperature", "K": "a temperature difference",
+    "s": "a time", "percent": "a percentage", "rad": "an angle", "V/s": "a voltage rate",
+    "A/s": "a current rate", "1/K": "a temperature coefficient", "dimensionless": "a plain number",
+}
+_ANGLE_UNITS = {"radian", "milliradian", "microradian", "centiradian", "degree", "arcminute", "arcsecond"}
+_RATIO_UNITS = {"percent", "ppm", "permille", "dimensionless"}
+
+
+def _unit_names(q: pint.Quantity) -> set[str]:
+    return {str(name) for name in q.unit_items() for name in [name[0]]} or {"dimensionless"}
+
+
+@lru_cache(maxsize=4096)
+def _parse(text: str) -> pint.Quantity:
+    return UREG.Quantity(text)
+
+
+def to_si(value: Any, unit: str) -> float:
+    """Convert ``value`` (a number or a string with units) to a float in ``unit``.
+
+    Raises ``ValueError`` with a sentence a user can act on.
+    """
+    kind = _KINDS.get(unit, unit)
+    if isinstance(value, bool) or value is None:
+        raise ValueError(f"expected {kind} ({unit}), got {value!r}")
+    if isinstance(value, (int, float)):
+        number = float(value)
+    elif isinstance(value, str):
+        try:
+            q = _parse(value.strip())
+        except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError, KeyError, IndexError) as exc:
+            raise ValueError(f"cannot read '{value}' as {kind} ({unit})") from exc
+        if not isinstance(q, pint.Quantity):
+            number = float(q)
+        else:
+            names = _unit_names(q)
+            if unit == "rad" and not names <= _ANGLE_UNITS | {"dimensionless"}:
+                raise ValueError(f"'{value}' is not {kind}; write e.g. '1.5 arcmin' or '0.2 crad'")
+            if unit == "percent" and not names <= _RATIO_UNITS:
+                raise ValueError(f"'{value}' is not {kind}; write e.g. '4.5 %'")
+            try:
+                number = float(q.to(unit).magnitude)
+            except pint.errors.DimensionalityError as exc:
+                raise ValueError(f"'{value}' is not {kind} ({unit})") from exc
+    else:
+        raise ValueError(f"expected {kind} ({unit}), got {type(value).__name__}")
+    if not math.isfinite(number):
+        raise ValueError(f"{kind} must be a finite number, got {value!r}")
+    return number
+
+
+def quantity(unit: str) -> Any:
+    """A pydantic field type: accepts a number or a string with units, holds a float in ``unit``."""
+    kind = _KINDS.get(unit, unit)
+    return Annotated[
+        float,
+        BeforeValidator(lambda v: to_si(v, unit)),
+        PlainSerializer(lambda v: v, return_type=float),
+        WithJsonSchema({"anyOf": [{"type": "number"}, {"type": "string"}],
+                        "description": f"{kind}: a number in {unit} or a string with units"}),
+    ]
+
+
+Voltage = quantity("V")
+Current = quantity("A")
+Power = quantity("W")
+ApparentPower = quantity("VA")
+Frequency = quantity("Hz")
+Resistance = quantity("ohm")
+Temperature = quantity("degC")
+TemperatureDifference = quantity("K")
+Duration = quantity("s")
+Percent = quantity("percent")
+Angle = quantity("rad")
+VoltageRate = quantity("V/s")
+CurrentRate = quantity("A/s")

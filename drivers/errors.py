@@ -46,3 +46,7 @@ class OverRange(InstrumentError):
                  quantity: str = ""):
         self.quantity = quantity
         super().__init__(message, instrument, command)
+
+
+class NotSupported(InstrumentError):
+    """The instrument's profile has no command for the operation asked (e.g. no watchdog)."""

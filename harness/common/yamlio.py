@@ -95,21 +95,35 @@ def load_file(path: str | Path) -> LoadedYaml:
 
 
 def _clean_loc(loc: tuple[Any, ...], loaded: LoadedYaml) -> tuple[Any, ...]:
-    """Drop the parts pydantic adds (union tags, function names) that are not in the document."""
+    """Keep the parts of a pydantic ``loc`` that exist in the document.
+
+    Pydantic adds parts of its own (union tags such as ``ramp``, function names); they are
+    skipped by walking the data alongside.
+    """
     out: list[Any] = []
+    node: Any = loaded.data
     for part in loc:
-        candidate = tuple(out) + (part,)
-        if candidate in loaded.marks or candidate in loaded.key_marks:
-            out.append(part)
-        elif isinstance(part, str) and ("[" in part or part.startswith("function-") or part in {"list", "float", "int", "str"}):
+        if isinstance(node, dict) and part in node:
+            node = node[part]
+        elif isinstance(node, list) and isinstance(part, int) and 0 <= part < len(node):
+            node = node[part]
+        elif isinstance(node, dict) and isinstance(part, str) and not _is_tag(part, node):
+            out.append(part)  # a missing or unknown key: point at its parent, keep the name
+            node = None
             continue
         else:
-            out.append(part)
+            continue
+        out.append(part)
     return tuple(out)
 
 
+def _is_tag(part: str, node: dict[str, Any]) -> bool:
+    """Parts pydantic adds: a tagged-union tag (the value of the ``kind`` key) or a wrapper name."""
+    return "[" in part or part.startswith("function-") or part == node.get("kind")
+
+
 def _message(err: dict[str, Any]) -> str:
-    loc = ".".join(str(p) for p in err.get("loc", ()) if not (isinstance(p, str) and "[" in p))
+    loc = ".".join(str(p) for p in err.get("_clean", err.get("loc", ())))
     kind = err.get("type", "")
     if kind == "extra_forbidden":
         return f"unknown key '{err['loc'][-1]}'"
@@ -129,7 +143,7 @@ def validate(model: type[M], loaded: LoadedYaml, context: dict[str, Any] | None 
         for err in exc.errors(include_url=False):
             loc = _clean_loc(tuple(err.get("loc", ())), loaded)
             key = err.get("type") == "extra_forbidden"
-            errors.append(loaded.error(loc, _message(err), key=key))
+            errors.append(loaded.error(loc, _message({**err, "_clean": loc}), key=key))
         raise InputErrors(errors) from exc
 
 

@@ -1,0 +1,135 @@
+"""A power analyser read with one snapshot query per reading.
+
+The snapshot command is built once, for the configured channels, when the analyser is made;
+a reading is then one query, one ``str.split`` per level and ``float`` per value, and a range
+check that turns the overload and not-a-number values into :class:`OverRange`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+from drivers.errors import InstrumentError, ProtocolError
+from drivers.numbers import SPECIAL_THRESHOLD, check_reading, parse_number
+from drivers.profile import QUANTITIES, PowerAnalyserProfile, Profile
+from drivers.scpi import ScpiInstrument, channel_list, require_finite
+from drivers.transport import Transport
+
+_LIMIT = SPECIAL_THRESHOLD
+
+
+@dataclass(frozen=True, slots=True)
+class ChannelReading:
+    """One channel of a snapshot: rms voltage, mean-rectified voltage scaled to rms (V), rms
+    current (A), active power (W), frequency (Hz)."""
+
+    u_rms: float
+    u_mean: float
+    i_rms: float
+    p: float
+    freq: float
+
+
+@dataclass(frozen=True, slots=True)
+class Snapshot:
+    """The readings of all configured channels from one query, and the reply as it came."""
+
+    channels: tuple[ChannelReading, ...]
+    raw: str
+
+
+class PowerAnalyser(ScpiInstrument):
+    KIND = "power_analyser"
+    profile: PowerAnalyserProfile
+
+    def __init__(self, transport: Transport, name: str, profile: Profile | str | Path = "generic",
+                 channels: tuple[int, ...] = (1,)):
+        super().__init__(transport, name, profile)
+        self.channels = tuple(channels)
+        fmt = self.profile.snapshot
+        self.snapshot_command = self.profile.send_form(fmt.query).format(channels=channel_list(self.channels))
+        self._by_channel = fmt.layout == "by_channel"
+        self._outer = fmt.channel_separator if self._by_channel else fmt.field_separator
+        self._inner = fmt.field_separator if self._by_channel else fmt.channel_separator
+        self._fields = fmt.fields
+        self._order = tuple(fmt.fields.index(q) for q in QUANTITIES)
+        self._n_outer = len(self.channels) if self._by_channel else len(fmt.fields)
+        self._n_inner = len(fmt.fields) if self._by_channel else len(self.channels)
+
+    # --- the reading
+
+    def snapshot(self) -> Snapshot:
+        command = self.snapshot_command
+        try:
+            reply = self.transport.query(command)
+        except InstrumentError as exc:
+            exc.instrument = self.name
+            raise
+        return Snapshot(self.parse_snapshot(reply), reply)
+
+    def parse_snapshot(self, reply: str) -> tuple[ChannelReading, ...]:
+        """Readings per channel from a snapshot reply; garbled or special values raise."""
+        groups = reply.split(self._outer)
+        try:
+            if len(groups) != self._n_outer or "_" in reply:
+                raise ValueError
+            table = [[float(x) for x in g.split(self._inner)] for g in groups]
+        except ValueError:
+            table = self._slow_table(groups, reply)
+        rows = table if self._by_channel else list(zip(*table))
+        if len(rows) != len(self.channels) or any(len(r) != len(self._fields) for r in rows):
+            raise self._garbled(reply, "the reply does not have one value per field and channel")
+        a, b, c, d, e = self._order
+        out = []
+        for index, row in enumerate(rows):
+            for v in row:
+                if not -_LIMIT < v < _LIMIT:
+                    self._over_range(row, index)
+            out.append(ChannelReading(row[a], row[b], row[c], row[d], row[e]))
+        return tuple(out)
+
+    def _slow_table(self, groups: list[str], reply: str) -> list[list[float]]:
+        """The strict parser, for replies plain ``float`` refuses (``NINF``, ``#H..``) or garbage."""
+        if len(groups) != self._n_outer:
+            raise self._garbled(reply, f"expected {self._n_outer} group(s) split by '{self._outer}', "
+                                       f"got {len(groups)}")
+        try:
+            return [[parse_number(x) for x in g.split(self._inner)] for g in groups]
+        except ValueError as exc:
+            raise self._garbled(reply, str(exc)) from None
+
+    def _garbled(self, reply: str, why: str) -> ProtocolError:
+        shown = reply if len(reply) <= 200 else reply[:200] + "..."
+        return ProtocolError(f"snapshot reply unreadable ({why}): '{shown}'", self.name, self.snapshot_command)
+
+    def _over_range(self, row: tuple[float, ...] | list[float], index: int) -> None:
+        channel = self.channels[index]
+        for field, value in zip(self._fields, row):
+            if field != "skip":
+                check_reading(value, f"{field} of channel {channel}", self.name, self.snapshot_command)
+
+    # --- configuration
+
+    def set_ranges(self, voltage: float | None = None, current: float | None = None) -> None:
+        """Fixed ranges (V, A): the instrument picks the smallest range that holds the value."""
+        if voltage is not None:
+            value = require_finite(voltage, "the voltage range")
+            self.configure(self._template("set_voltage_range").format(value=value))
+        if current is not None:
+            value = require_finite(current, "the current range")
+            self.configure(self._template("set_current_range").format(value=value))
+
+    def ranges(self) -> tuple[float, float]:
+        return (self._query_number(self._template("voltage_range"), "voltage range"),
+                self._query_number(self._template("current_range"), "current range"))
+
+    def set_averaging(self, seconds: float) -> None:
+        """The averaging time, which is also the interval between fresh readings."""
+        value = require_finite(seconds, "the averaging time")
+        if value == 0:
+            raise ValueError("the averaging time must be positive")
+        self.configure(self._template("set_averaging").format(value=value))
+
+    def averaging(self) -> float:
+        return self._query_number(self._template("averaging"), "averaging time")

@@ -1,0 +1,243 @@
+"""The small transport the instruments talk through: ``write``, ``read``, ``query``, ``close``.
+
+:class:`PyvisaTransport` speaks to a VISA resource (a LAN instrument on a raw socket, GPIB, USB,
+or a pyvisa-sim device); :class:`FakeTransport` answers from a function, for unit tests.
+
+Every lower-level failure leaves a transport as one of the :class:`InstrumentError` family,
+with the instrument's name and the command. pyvisa-py on a raw socket needs care:
+
+- ``open_resource`` succeeds when nothing listens; the first I/O raises
+  ``ConnectionRefusedError``.
+- A peer that closed the connection is not reported: the read waits for data until the timeout.
+  After a timeout the socket is probed, and a closed one is reported as a lost connection.
+- After a timeout, a late reply would answer the *next* query. The session is therefore dropped
+  and reopened before the next command, so a late reply can never be taken for a fresh one.
+"""
+
+from __future__ import annotations
+
+import socket
+from collections import deque
+from typing import Any, Callable, Protocol
+
+import pyvisa
+from pyvisa import constants
+from pyvisa.errors import InvalidSession, VisaIOError
+
+from drivers.errors import ConnectionLost, InstrumentError, InstrumentTimeout, ProtocolError
+
+# VISA status codes that mean the link itself is gone (VPP-4.3 completion and error codes).
+_LINK_CODES = frozenset({
+    constants.StatusCode.error_connection_lost,
+    constants.StatusCode.error_io,
+    constants.StatusCode.error_invalid_object,
+    constants.StatusCode.error_closing_failed,
+    constants.StatusCode.error_resource_not_found,
+    constants.StatusCode.error_resource_busy,
+    constants.StatusCode.error_resource_locked,
+    constants.StatusCode.error_no_listeners,
+    constants.StatusCode.error_not_cic,
+    constants.StatusCode.error_system_error,
+})
+
+
+class Transport(Protocol):
+    """What an instrument needs of its link. ``name`` labels the errors it raises."""
+
+    name: str
+
+    def write(self, command: str) -> None: ...
+
+    def read(self) -> str: ...
+
+    def query(self, command: str) -> str: ...
+
+    def close(self) -> None: ...
+
+
+def map_visa_error(exc: BaseException, name: str, command: str | None) -> InstrumentError:
+    """The :class:`InstrumentError` for a pyvisa or socket failure (see the table in the README)."""
+    if isinstance(exc, VisaIOError):
+        return _from_visa_code(exc, name, command)
+    if isinstance(exc, ConnectionRefusedError):
+        return ConnectionLost("connection refused: nothing listens at the resource", name, command)
+    if isinstance(exc, (BrokenPipeError, ConnectionResetError, ConnectionAbortedError)):
+        return ConnectionLost(f"the connection broke ({exc.__class__.__name__})", name, command)
+    if isinstance(exc, socket.timeout):
+        return InstrumentTimeout("no reply within the timeout (socket)", name, command)
+    if isinstance(exc, OSError):
+        return ConnectionLost(f"link error: {exc.strerror or exc}", name, command)
+    if isinstance(exc, UnicodeDecodeError):
+        return ProtocolError(f"the reply is not text (byte {exc.object[exc.start:exc.start + 1]!r})",
+                             name, command)
+    if isinstance(exc, InvalidSession):
+        return ConnectionLost("the session is closed", name, command)
+    return ProtocolError(f"unexpected failure: {exc}", name, command)
+
+
+def _from_visa_code(exc: VisaIOError, name: str, command: str | None) -> InstrumentError:
+    if exc.error_code == constants.StatusCode.error_timeout:
+        return InstrumentTimeout("no reply within the timeout", name, command)
+    if exc.error_code in _LINK_CODES:
+        return ConnectionLost(f"link error {exc.abbreviation}: {exc.description}", name, command)
+    return ProtocolError(f"VISA error {exc.abbreviation}: {exc.description}", name, command)
+
+
+_MAPPED = (VisaIOError, OSError, UnicodeDecodeError, InvalidSession)
+
+
+class PyvisaTransport:
+    """A VISA resource opened with newline terminations (what raw-socket instruments need)."""
+
+    def __init__(self, resource: str, rm: Any | None = None, timeout_s: float = 2.0,
+                 name: str | None = None):
+        if not timeout_s > 0:
+            raise ValueError("the timeout must be positive")
+        self.resource = resource
+        self.name = name or resource
+        self._timeout_ms = max(1, round(timeout_s * 1000))
+        self._own_rm = rm is None
+        self._rm = rm
+        self._res: Any = None
+        self._closed = False
+        self._open(None)
+
+    def _resource_manager(self, command: str | None) -> Any:
+        if self._rm is None:
+            try:
+                self._rm = pyvisa.ResourceManager("@py")
+            except (OSError, ValueError, pyvisa.errors.Error) as exc:
+                raise ConnectionLost(f"no VISA library: {exc}", self.name, command) from exc
+        return self._rm
+
+    def _open(self, command: str | None) -> Any:
+        rm = self._resource_manager(command)
+        try:
+            self._res = rm.open_resource(self.resource, read_termination="\n",
+                                         write_termination="\n", timeout=self._timeout_ms)
+        except _MAPPED as exc:
+            raise ConnectionLost(f"cannot open {self.resource}: {exc}", self.name, command) from exc
+        except ValueError as exc:  # pyvisa's InvalidResourceName
+            raise ConnectionLost(f"not a VISA resource name: {exc}", self.name, command) from exc
+        return self._res
+
+    def _session(self, command: str) -> Any:
+        if self._res is not None:
+            return self._res
+        if self._closed:
+            raise ConnectionLost("the transport is closed", self.name, command)
+        return self._open(command)
+
+    def query(self, command: str) -> str:
+        res = self._res or self._session(command)
+        try:
+            return res.query(command)
+        except _MAPPED as exc:
+            raise self._failure(exc, command) from exc
+
+    def write(self, command: str) -> None:
+        res = self._res or self._session(command)
+        try:
+            res.write(command)
+        except _MAPPED as exc:
+            raise self._failure(exc, command) from exc
+
+    def read(self) -> str:
+        res = self._res or self._session("(read)")
+        try:
+            return res.read()
+        except _MAPPED as exc:
+            raise self._failure(exc, None) from exc
+
+    def _failure(self, exc: BaseException, command: str | None) -> InstrumentError:
+        error = map_visa_error(exc, self.name, command)
+        if isinstance(error, InstrumentTimeout) and self._peer_closed():
+            error = ConnectionLost("the instrument closed the connection", self.name, command)
+        if isinstance(error, (InstrumentTimeout, ConnectionLost, ProtocolError)):
+            # A late or partial reply must not answer the next query: start a fresh session.
+            self._drop()
+        return error
+
+    def _peer_closed(self) -> bool:
+        """True when the raw socket under the session has reached end-of-stream."""
+        sock = self._raw_socket()
+        if sock is None:
+            return False
+        try:
+            return sock.recv(1, socket.MSG_PEEK | socket.MSG_DONTWAIT) == b""
+        except BlockingIOError:
+            return False
+        except OSError:
+            return True
+
+    def _raw_socket(self) -> socket.socket | None:
+        try:
+            session = self._res.visalib.sessions[self._res.session]
+        except (AttributeError, KeyError, TypeError, InvalidSession):
+            return None
+        sock = getattr(session, "interface", None)
+        return sock if isinstance(sock, socket.socket) else None
+
+    def _drop(self) -> None:
+        res, self._res = self._res, None
+        if res is not None:
+            try:
+                res.close()
+            except _MAPPED:
+                pass  # the session is being abandoned; nothing more can go wrong on it
+
+    def close(self) -> None:
+        self._closed = True
+        self._drop()
+        if self._own_rm and self._rm is not None:
+            try:
+                self._rm.close()
+            except _MAPPED:
+                pass
+            self._rm = None
+
+
+Handler = Callable[[str], "str | None"]
+
+
+class FakeTransport:
+    """Answers each command from ``handler(command)``: a reply string, or None for no reply.
+
+    A query whose handler returns None times out, as an instrument that stays silent would.
+    The handler may raise an :class:`InstrumentError` or an ``OSError`` to act out a failure.
+    ``sent`` keeps every command, for tests that check what went out.
+    """
+
+    def __init__(self, handler: Handler, name: str = "fake"):
+        self.handler = handler
+        self.name = name
+        self.sent: list[str] = []
+        self._replies: deque[str] = deque()
+        self._closed = False
+
+    def write(self, command: str) -> None:
+        if self._closed:
+            raise ConnectionLost("the transport is closed", self.name, command)
+        self.sent.append(command)
+        try:
+            reply = self.handler(command)
+        except OSError as exc:
+            raise map_visa_error(exc, self.name, command) from exc
+        if reply is not None:
+            self._replies.append(reply)
+
+    def read(self) -> str:
+        return self._next_reply(None)
+
+    def query(self, command: str) -> str:
+        self.write(command)
+        return self._next_reply(command)
+
+    def _next_reply(self, command: str | None) -> str:
+        if not self._replies:
+            raise InstrumentTimeout("no reply within the timeout", self.name, command)
+        return self._replies.popleft()
+
+    def close(self) -> None:
+        self._closed = True
+        self._replies.clear()

@@ -1,0 +1,176 @@
+"""The test record (**contract**): nameplate, no-load and load-loss readings, resistances, guarantees.
+
+Input of ``harness evaluate`` and output of a run. Values with units are parsed once (pint) into
+SI floats; temperatures in degC, percentages in %. Unknown keys are errors. Readings that cannot
+come from a real test (power above U*I, a load-loss voltage above the rated voltage, ...) are
+rejected here, on the field they concern, so the user sees ``FILE:LINE:COLUMN: reason``.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Any, Literal
+
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
+from pydantic_core import InitErrorDetails, PydanticCustomError, ValidationError
+
+from harness.calc import plausibility
+from harness.calc.phases import PhaseCurrent, PhaseResistance, PhaseValue, PhaseVoltage, values_of
+from harness.common import yamlio
+from harness.common.units import ApparentPower, Duration, Frequency, Percent, Power, Temperature, Voltage
+
+RECORD_SPEC = 1
+
+WindingName = Literal["hv", "lv"]
+
+
+def _positive(value: PhaseValue) -> PhaseValue:
+    if any(v <= 0 for v in values_of(value)):
+        raise ValueError("must be positive (a zero or negative reading cannot come from this test)")
+    return value
+
+
+def _plausible_temperature(value: float) -> float:
+    # Wider than any test bay sees; outside it the value is a typo or a unit mistake.
+    if not -60.0 <= value <= 250.0:
+        raise ValueError(f"{value:g} degC is not a plausible winding, oil or core temperature")
+    return value
+
+
+PositiveVoltage = Annotated[Voltage, AfterValidator(_positive)]
+PositivePower = Annotated[Power, AfterValidator(_positive)]
+PositivePercent = Annotated[Percent, AfterValidator(_positive)]
+Readings = Annotated[PhaseVoltage, AfterValidator(_positive)]
+LineCurrents = Annotated[PhaseCurrent, AfterValidator(_positive)]
+Resistances = Annotated[PhaseResistance, AfterValidator(_positive)]
+TestTemperature = Annotated[Temperature, AfterValidator(_plausible_temperature)]
+
+
+class _Model(BaseModel):
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+
+class Winding(_Model):
+    rated_voltage: PositiveVoltage = Field(description="rated voltage; three-phase: line-to-line")
+    connection: Literal["star", "delta"] | None = Field(None, description="three-phase only")
+
+
+class Transformer(_Model):
+    rated_power: Annotated[ApparentPower, AfterValidator(_positive)]
+    phases: Literal[1, 3]
+    frequency: Annotated[Frequency, AfterValidator(_positive)]
+    hv: Winding
+    lv: Winding
+    winding_material: Literal["copper", "aluminium"] | None = Field(
+        None, description="sets the resistance temperature constant; copper assumed (with a warning) if absent")
+    reference_temperature: TestTemperature | None = Field(
+        None, description="temperature the load loss is corrected to; default from the standard")
+
+    @model_validator(mode="after")
+    def _consistent(self) -> Transformer:
+        _raise(plausibility.transformer_problems(self))
+        return self
+
+
+class NoLoadTest(_Model):
+    """Open-circuit test: one winding energised at rated voltage, the other open."""
+    winding: WindingName = Field(description="the energised winding")
+    voltage: Readings = Field(description="rms; three-phase: line-to-line, mean or list of three")
+    voltage_mean: Readings | None = Field(None, description="mean-value voltmeter reading scaled to rms")
+    current: LineCurrents = Field(description="three-phase: line currents, mean or list of three")
+    power: PositivePower = Field(description="three-phase: total")
+    temperature: TestTemperature | None = Field(None, description="core/oil temperature (IEEE corrects to 20 degC)")
+
+
+class LoadTest(_Model):
+    """Load-loss (short-circuit) test: one winding fed, the other short-circuited."""
+    winding: WindingName = Field(description="the energised winding")
+    voltage: Readings
+    current: LineCurrents
+    power: PositivePower
+    temperature: TestTemperature | None = Field(None, description="mean winding temperature during the test")
+
+
+class Resistance(_Model):
+    resistance: Resistances = Field(description="d.c.; three-phase: line-to-line, mean or list of three")
+    temperature: TestTemperature
+
+
+class WindingResistances(_Model):
+    hv: Resistance
+    lv: Resistance
+
+
+class Guarantees(_Model):
+    no_load_loss: PositivePower | None = None
+    load_loss: PositivePower | None = Field(None, description="at reference temperature")
+    total_loss: PositivePower | None = None
+    impedance: PositivePercent | None = Field(None, description="short-circuit impedance at reference temperature")
+    no_load_current: PositivePercent | None = Field(None, description="% of rated current")
+
+
+class Tolerances(_Model):
+    """Overrides of the IEC 60076-1 Table 1 tolerances, in % of the guaranteed value."""
+    no_load_loss: PositivePercent | None = None
+    load_loss: PositivePercent | None = None
+    total_loss: PositivePercent | None = None
+    impedance: PositivePercent | None = None
+    no_load_current: PositivePercent | None = None
+
+
+class LoadBlock(_Model):
+    """A part of the day at a steady load."""
+    duration: Annotated[Duration, AfterValidator(_positive)] = Field(description="e.g. '6 h'")
+    load: float = Field(ge=0.0, le=3.0, description="per unit of rated power")
+    power_factor: float = Field(1.0, gt=0.0, le=1.0)
+
+
+class Waveform(_Model):
+    """Hysteresis and eddy-current fractions of the no-load loss (IEEE waveform correction)."""
+    p1: float = Field(0.5, ge=0.0, le=1.0, description="hysteresis fraction")
+    p2: float = Field(0.5, ge=0.0, le=1.0, description="eddy-current fraction")
+    form: Literal["iec", "ieee"] | None = Field(None, description="correction form; default from the standard")
+
+    @model_validator(mode="after")
+    def _sum_to_one(self) -> Waveform:
+        if abs(self.p1 + self.p2 - 1.0) > 1e-6:
+            _raise([(("p2",), f"p1 + p2 must be 1 (they are fractions of one loss), got {self.p1 + self.p2:g}",
+                     self.p2)])
+        return self
+
+
+class Record(_Model):
+    model_config = ConfigDict(frozen=True, extra="forbid", populate_by_name=True)
+    schema_: str | None = Field(None, alias="$schema", description="JSON Schema for editors")
+    spec: int = Field(RECORD_SPEC, description="format version of the record")
+    standard: Literal["iec", "ieee"] = "iec"
+    transformer: Transformer
+    no_load: NoLoadTest | None = None
+    load: LoadTest | None = None
+    winding_resistance: WindingResistances | None = None
+    guarantees: Guarantees | None = None
+    tolerances: Tolerances | None = None
+    load_profile: list[LoadBlock] | None = Field(None, min_length=1, description="24 hours of load")
+    waveform: Waveform | None = None
+
+    @model_validator(mode="after")
+    def _plausible(self) -> Record:
+        _raise(plausibility.record_problems(self))
+        return self
+
+
+def _raise(problems: list[tuple[tuple[Any, ...], str, Any]]) -> None:
+    """Turn (location, reason, value) triples into one pydantic error located at each field."""
+    if problems:
+        raise ValidationError.from_exception_data("Record", [
+            InitErrorDetails(type=PydanticCustomError("implausible", "{reason}", {"reason": reason}), loc=loc, input=value)
+            for loc, reason, value in problems])
+
+
+def load_record(path: str | Path) -> Record:
+    """Load and validate a record file; errors are ``InputError``s located in the file."""
+    return yamlio.load_model(Record, path)
+
+
+def record_from_text(text: str, file: str = "<input>") -> Record:
+    return yamlio.validate(Record, yamlio.load_text(text, file))

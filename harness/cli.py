@@ -1,0 +1,222 @@
+"""The command line: a thin layer over the public API (see ARCHITECTURE's command-line contract)."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+from typing import Any, Callable
+
+from harness.common.errors import HarnessError, InputError
+
+
+def _floats(text: str) -> list[float]:
+    try:
+        values = [float(v) for v in text.split(",") if v.strip()]
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a comma-separated list of numbers") from exc
+    if not values:
+        raise argparse.ArgumentTypeError("the list is empty")
+    return values
+
+
+def _scale(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a number") from exc
+    if not 0 < value <= 10000:
+        raise argparse.ArgumentTypeError("the time scale must be above 0 and at most 10000")
+    return value
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(prog="harness", description="Transformer no-load and load-loss test harness.")
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    run = sub.add_parser("run", help="run a test sequence (the built-in simulated bay without --station)")
+    run.add_argument("sequence", type=Path)
+    run.add_argument("--station", type=Path)
+    run.add_argument("--sim", default="default", metavar="SCENARIO", help="simulated-bay scenario")
+    run.add_argument("--fault", action="append", default=[], metavar="NAME", help="inject a fault (simulated bay)")
+    run.add_argument("--time-scale", type=_scale, metavar="X", help="simulated bay speed-up (default 20)")
+    run.add_argument("--yes", action="store_true", help="answer prompts (simulated bay only)")
+    run.add_argument("--json", action="store_true")
+
+    chk = sub.add_parser("check", help="validate a sequence against a station; nothing is energised")
+    chk.add_argument("sequence", type=Path)
+    chk.add_argument("--station", type=Path)
+
+    ev = sub.add_parser("evaluate", help="evaluate a record of readings taken by hand")
+    ev.add_argument("record", type=Path)
+    ev.add_argument("--json", action="store_true")
+    ev.add_argument("--load", type=_floats, metavar="LIST", help="load fractions, e.g. 0.25,0.5,1")
+    ev.add_argument("--pf", type=_floats, metavar="LIST", help="power factors, e.g. 1,0.8")
+    ev.add_argument("--html", type=Path, metavar="FILE", help="also write the HTML report")
+
+    rep = sub.add_parser("report", help="rebuild a run's reports from the store")
+    rep.add_argument("run", metavar="RUN_ID_OR_DIR")
+
+    runs = sub.add_parser("runs", help="list stored runs")
+    runs.add_argument("--json", action="store_true")
+
+    sch = sub.add_parser("schema", help="JSON Schema for editors")
+    sch.add_argument("which", nargs="?", default="sequence", choices=["sequence", "station", "record"])
+
+    sim = sub.add_parser("sim", help="the simulated bay").add_subparsers(dest="sim_command", required=True, metavar="ACTION")
+    serve = sim.add_parser("serve", help="serve the simulated bay on loopback sockets")
+    serve.add_argument("scenario", nargs="?", default="default")
+    serve.add_argument("--time-scale", type=_scale, default=1.0, metavar="X")
+    serve.add_argument("--fault", action="append", default=[], metavar="NAME")
+    truth = sim.add_parser("truth", help="the model's true values from its own parameters")
+    truth.add_argument("scenario", nargs="?", default="default")
+    truth.add_argument("--json", action="store_true")
+
+    bench = sub.add_parser("bench", help="benchmarks on the simulated bay")
+    bench.add_argument("which", choices=["overhead", "ramp", "reduce", "store"])
+    bench.add_argument("--json", action="store_true")
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    handler: Callable[[argparse.Namespace], int] = _COMMANDS[args.command]
+    try:
+        return handler(args)
+    except InputError as exc:
+        print(str(exc), file=sys.stderr)
+        return 2
+    except HarnessError as exc:
+        print(f"harness: {exc}", file=sys.stderr)
+        return 2
+    except BrokenPipeError:
+        return 0
+
+
+def _emit(document: Any) -> None:
+    sys.stdout.write(json.dumps(document, indent=2, default=str, allow_nan=False) + "\n")
+
+
+def cmd_run(args: argparse.Namespace) -> int:
+    from harness.runner.run import RunOptions, execute
+    from harness.runner.summary import print_outcome
+    from harness.store import Store
+
+    options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes, quiet=args.json)
+    _check_faults(options)
+    store = Store()
+    try:
+        outcome = execute(options, store)
+    finally:
+        store.close()
+    if args.json:
+        _emit(outcome.as_dict())
+    else:
+        print_outcome(outcome)
+    return outcome.exit_code
+
+
+def _check_faults(options: Any) -> None:
+    from harness.sim.faults import FAULTS
+    for name in options.faults:
+        if name not in FAULTS:
+            raise InputError(f"unknown fault '{name}'; known: {', '.join(sorted(FAULTS))}", "--fault", 0, 0)
+    if options.faults and options.station is not None:
+        raise InputError("--fault injects into the built-in simulated bay; drop --station", "--fault", 0, 0)
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    from harness.runner.run import RunOptions, prepare
+    prepared = prepare(RunOptions(args.sequence, args.station))
+    steps = len(prepared.sequence.steps)
+    print(f"{args.sequence}: valid against {prepared.station_file} ({steps} steps); nothing was energised")
+    return 0
+
+
+def cmd_evaluate(args: argparse.Namespace) -> int:
+    from harness.calc import evaluate, load_record
+    record = load_record(args.record)
+    results = evaluate(record, loads=args.load, power_factors=args.pf)
+    if args.html:
+        from harness.runner.reporting import write_evaluation_report
+        write_evaluation_report(args.record, record, results, args.html)
+    if args.json:
+        _emit(results.to_dict())
+    else:
+        from rich.console import Console
+        from harness.calc.table import render_results
+        render_results(results, Console())
+    return 0
+
+
+def cmd_report(args: argparse.Namespace) -> int:
+    from harness.runner.reporting import write_run_reports
+    from harness.store import Store
+    store = Store()
+    try:
+        run_id = Path(args.run).name if Path(args.run).is_dir() else args.run
+        path = write_run_reports(store, store.run(run_id)["run_id"])
+    finally:
+        store.close()
+    print(path)
+    return 0
+
+
+def cmd_runs(args: argparse.Namespace) -> int:
+    from harness.store import Store
+    store = Store()
+    try:
+        rows = store.runs()
+    finally:
+        store.close()
+    if args.json:
+        _emit(rows)
+        return 0
+    from rich.console import Console
+    from rich.table import Table
+    table = Table("run_id", "status", "samples", "started", "unit")
+    for r in rows:
+        table.add_row(r["run_id"], r["status"], str(r["samples"]), str(r["started"]), str(r.get("unit") or ""))
+    Console().print(table)
+    return 0
+
+
+def cmd_schema(args: argparse.Namespace) -> int:
+    from harness.config.schema import schema
+    _emit(schema(args.which))
+    return 0
+
+
+def cmd_sim(args: argparse.Namespace) -> int:
+    if args.sim_command == "truth":
+        from harness.sim.scenario import load_scenario
+        from harness.sim.truth import truth
+        document = truth(load_scenario(args.scenario))
+        if args.json:
+            _emit(document)
+        else:
+            print(json.dumps(document, indent=2))
+        return 0
+    from harness.runner.simserve import serve
+    return serve(args.scenario, args.time_scale, tuple(args.fault))
+
+
+def cmd_bench(args: argparse.Namespace) -> int:
+    from harness.runner.bench import BENCHMARKS
+    figures = BENCHMARKS[args.which]()
+    if args.json:
+        _emit(figures)
+    else:
+        for key, value in figures.items():
+            print(f"{key:>28}: {value}")
+    return 0
+
+
+_COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {
+    "run": cmd_run, "check": cmd_check, "evaluate": cmd_evaluate, "report": cmd_report, "runs": cmd_runs,
+    "schema": cmd_schema, "sim": cmd_sim, "bench": cmd_bench,
+}
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,147 @@
+"""Cross-checks of a sequence against its station, before anything is energised.
+
+Each problem is reported at the place in the sequence file that causes it.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any, Iterator
+
+from harness.common.errors import InputError, InputErrors
+from harness.common.yamlio import LoadedYaml
+from harness.config.sequence import Sequence
+from harness.config.station import Limits, Station
+from harness.config.steps import Measure, Prompt, Ramp, Repeat, Sweep, TargetStep, Wiring
+from harness.config.targets import parse_target
+
+_LIMIT_UNITS = {"voltage": "V", "current": "A", "power": "W", "energised_time": "s", "winding_temperature": "degC"}
+
+
+@dataclass(frozen=True)
+class EffectiveLimits:
+    """The tightest of station, sequence and step: what the supervisor enforces."""
+    voltage: float
+    current: float
+    power: float
+    energised_time: float
+    winding_temperature: float
+
+    def tightened(self, limits: Limits) -> "EffectiveLimits":
+        values = {k: min(getattr(self, k), v) for k, v in _given(limits)}
+        return EffectiveLimits(**{**self.__dict__, **values})
+
+
+def _given(limits: Limits) -> Iterator[tuple[str, float]]:
+    for key in _LIMIT_UNITS:
+        value = getattr(limits, key)
+        if value is not None:
+            yield key, value
+
+
+def station_limits(station: Station) -> EffectiveLimits:
+    s = station.limits
+    return EffectiveLimits(s.voltage, s.current, s.power, s.energised_time, s.winding_temperature)
+
+
+def rated_voltage(sequence: Sequence, winding: str) -> float:
+    return getattr(sequence.transformer, winding).rated_voltage
+
+
+def rated_current(sequence: Sequence, winding: str) -> float:
+    t = sequence.transformer
+    phases_factor = math.sqrt(3) if t.phases == 3 else 1.0
+    return t.rated_power / (phases_factor * rated_voltage(sequence, winding))
+
+
+def resolve_target(sequence: Sequence, step: TargetStep | Sweep, text: str, winding: str) -> float:
+    """A target as an absolute primary value in V or A."""
+    quantity = step.quantity
+    rated = rated_voltage(sequence, winding) if quantity == "voltage" else rated_current(sequence, winding)
+    return parse_target(text, "V" if quantity == "voltage" else "A").resolve(rated)
+
+
+class _Checker:
+    def __init__(self, sequence: Sequence, station: Station, loaded: LoadedYaml):
+        self.sequence, self.station, self.loaded = sequence, station, loaded
+        self.errors: list[InputError] = []
+
+    def fail(self, path: tuple[Any, ...], message: str) -> None:
+        self.errors.append(self.loaded.error(path, message))
+
+    def limits_inside(self, limits: Limits, outer: EffectiveLimits, path: tuple[Any, ...], whose: str) -> None:
+        for key, value in _given(limits):
+            bound = getattr(outer, key)
+            if value > bound:
+                unit = _LIMIT_UNITS[key]
+                self.fail(path + (key,), f"{key} limit {value:g} {unit} is above the {whose} limit of {bound:g} {unit}; "
+                                         "a sequence can only tighten limits")
+
+    def run(self) -> list[InputError]:
+        seq = self.sequence
+        if seq.transformer.phases != 1:
+            self.fail(("transformer", "phases"), "the runner drives single-phase bays only; "
+                      "evaluate three-phase readings with 'harness evaluate'")
+        outer = station_limits(self.station)
+        self.limits_inside(seq.limits, outer, ("limits",), "station's hard")
+        self.walk(seq.steps, ("steps",), outer.tightened(seq.limits), None)
+        return self.errors
+
+    def walk(self, steps: list[Any], path: tuple[Any, ...], limits: EffectiveLimits, wiring: Wiring | None) -> Wiring | None:
+        for index, step in enumerate(steps):
+            here = path + (index,)
+            self.limits_inside(step.limits, limits, here + ("limits",), "sequence's (or station's)")
+            step_limits = limits.tightened(step.limits)
+            if isinstance(step, Prompt) and step.wiring is not None:
+                wiring = step.wiring
+            elif isinstance(step, Repeat):
+                wiring = self.walk(step.steps, here + ("steps",), step_limits, wiring)
+            elif isinstance(step, (Ramp, Sweep)):
+                self.targets(step, here, step_limits, wiring)
+            elif isinstance(step, Measure):
+                self.measure_wiring(step, here, wiring)
+        return wiring
+
+    def targets(self, step: Ramp | Sweep, path: tuple[Any, ...], limits: EffectiveLimits, wiring: Wiring | None) -> None:
+        if wiring is None:
+            self.fail(path, f"{step.kind} before any prompt declares the wiring (which winding is fed)")
+            return
+        texts = [step.target] if isinstance(step, Ramp) else step.targets
+        for i, text in enumerate(texts):
+            where = path + (step.quantity,) + (() if isinstance(step, Ramp) else (i,))
+            value = resolve_target(self.sequence, step, text, wiring.fed)
+            self.reachable(step.quantity, value, where, limits, wiring)
+
+    def reachable(self, quantity: str, value: float, path: tuple[Any, ...], limits: EffectiveLimits, wiring: Wiring) -> None:
+        if quantity == "voltage" and value > limits.voltage:
+            self.fail(path, f"target {value:g} V is above the voltage limit of {limits.voltage:g} V")
+        if quantity == "current" and value > limits.current:
+            self.fail(path, f"target {value:g} A is above the current limit of {limits.current:g} A")
+        if quantity == "current":
+            needed = self.expected_voltage(value, wiring.fed)
+            if needed is not None and needed > limits.voltage:
+                self.fail(path, f"target {value:g} A needs about {needed:g} V at the guaranteed impedance, "
+                                f"above the voltage limit of {limits.voltage:g} V")
+        if quantity == "voltage" and wiring.other == "short":
+            self.fail(path, "a voltage target with the other winding shorted: that is a load-loss test, ramp on current")
+
+    def expected_voltage(self, current: float, winding: str) -> float | None:
+        g = self.sequence.guarantees
+        impedance = getattr(g, "impedance", None) if g is not None else None
+        if impedance is None:
+            return None
+        return impedance / 100 * rated_voltage(self.sequence, winding) * current / rated_current(self.sequence, winding)
+
+    def measure_wiring(self, step: Measure, path: tuple[Any, ...], wiring: Wiring | None) -> None:
+        wanted = {"no-load": "open", "load-loss": "short"}.get(step.test)
+        if wanted and (wiring is None or wiring.other != wanted):
+            self.fail(path + ("test",), f"a {step.test} measure needs the other winding {wanted}; "
+                                        "declare it in a prompt's wiring before")
+
+
+def check(sequence: Sequence, station: Station, loaded: LoadedYaml) -> None:
+    """Raise :class:`InputErrors` listing every problem, or return when the pair is sound."""
+    errors = _Checker(sequence, station, loaded).run()
+    if errors:
+        raise InputErrors(errors)

@@ -1,0 +1,37 @@
+"""The sequence file: the unit under test, its guarantees, test limits and the steps."""
+
+from __future__ import annotations
+
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field
+
+from harness.calc.record import Guarantees, Tolerances, Transformer
+from harness.config.station import Limits
+from harness.config.steps import AnyStep
+
+SEQUENCE_SPEC = 1
+
+
+class Unit(BaseModel):
+    """What identifies the unit under test on the report (the nameplate is ``transformer``)."""
+    model_config = ConfigDict(frozen=True, extra="forbid")
+    serial: str = Field(min_length=1)
+    maker: str | None = None
+    description: str | None = None
+    customer_order: str | None = None
+
+
+class Sequence(BaseModel):
+    model_config = ConfigDict(frozen=True, extra="forbid", populate_by_name=True)
+    schema_: str | None = Field(None, alias="$schema", description="JSON Schema for editors")
+    spec: Literal[1] = Field(description="format version of the sequence file")
+    name: str = Field(min_length=1)
+    operator: str | None = None
+    unit: Unit
+    standard: Literal["iec", "ieee"] = "iec"
+    transformer: Transformer
+    guarantees: Guarantees | None = None
+    tolerances: Tolerances | None = None
+    limits: Limits = Field(description="test limits: each must sit inside the station's")
+    steps: list[AnyStep] = Field(min_length=1)

@@ -1,0 +1,52 @@
+"""The built-in station of the simulated bay, used when ``harness run`` gets no --station."""
+
+from __future__ import annotations
+
+from harness.common.yamlio import load_text, validate
+from harness.config.station import Station
+
+SIM_STATION_FILE = "<built-in simulated bay>"
+
+_TEMPLATE = """\
+spec: 1
+name: Simulated bay
+lab: Harness simulated test bay (no hardware)
+simulated: true
+instruments:
+  source: {{resource: "{source}", profile: generic-ac-source, timeout: 0.5 s}}
+  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 0.5 s}}
+  resistance_meter:
+    resource: "{resistance_meter}"
+    profile: generic-resistance-meter
+    timeout: 0.5 s
+    channels: {{hv: 1, lv: 2}}
+  thermometer:
+    resource: "{thermometer}"
+    profile: generic-thermometer
+    timeout: 0.5 s
+    channels: {{ambient: 1, oil: 2, winding: 3}}
+  bay_control: {{resource: "{bay_control}", profile: sim-bay-control, timeout: 0.5 s}}
+measurement: {{vt_ratio: 1, ct_ratio: 1}}
+limits:
+  voltage: 1200 V
+  current: 120 A
+  power: 40 kW
+  energised_time: 2 h
+  winding_temperature: 110 degC
+  slew: 200 V/s
+safe_state: {{deenergised_voltage: 5 V, deenergised_current: 0.05 A, confirm_timeout: 5 s}}
+readings: {{late_after: 1 s, stale_after: 5 s, temperature_interval: 2 s}}
+"""
+
+ROLES = ("source", "analyser", "resistance_meter", "thermometer", "bay_control")
+PLACEHOLDER = {role: f"TCPIP0::127.0.0.1::{5025 + i}::SOCKET" for i, role in enumerate(ROLES)}
+
+
+def sim_station_text(resources: dict[str, str] | None = None) -> str:
+    """The station file for the simulated bay's resources (placeholders before it is served)."""
+    return _TEMPLATE.format(**{**PLACEHOLDER, **(resources or {})})
+
+
+def sim_station(resources: dict[str, str] | None = None) -> tuple[Station, str]:
+    text = sim_station_text(resources)
+    return validate(Station, load_text(text, SIM_STATION_FILE)), text

@@ -1,0 +1,290 @@
+"""The report's figures, drawn with matplotlib and returned as inline SVG text.
+
+Text stays text (``svg.fonttype = 'none'``): it is searchable and selectable in the page, the SVG
+stays small, and no font file is embedded or referenced; the browser draws it with its own
+sans-serif. Each figure's element ids get a prefix of its own, so several figures can share one
+HTML document without clashing ids. The XML prologue, the DOCTYPE (the only external reference
+matplotlib writes) and the metadata block are removed.
+
+Lines are told apart by marker and line style as well as colour, so the figures read in grey.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+import re
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+import matplotlib
+
+matplotlib.use("Agg")  # never a window: reports are built on headless bay PCs and CI
+
+from matplotlib.axes import Axes  # noqa: E402
+from matplotlib.backends.backend_svg import FigureCanvasSVG  # noqa: E402
+from matplotlib.figure import Figure  # noqa: E402
+
+from harness.report import fmt  # noqa: E402
+
+# Okabe-Ito palette: distinguishable with the common colour-vision deficiencies.
+COLOURS = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#000000")
+MARKERS = ("o", "s", "^", "D", "v", "P", "X")
+LINESTYLES = ("-", "--", "-.", ":", (0, (5, 1, 1, 1)), (0, (3, 1)), (0, (1, 2)))
+LIMIT_COLOUR = "#B00000"
+
+_RC = {
+    "svg.fonttype": "none",
+    "font.family": "sans-serif",
+    "font.size": 9.0,
+    "axes.grid": True,
+    "grid.color": "#d0d0d0",
+    "grid.linewidth": 0.6,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "figure.dpi": 72,
+}
+_NO_METADATA = {"Format": None, "Type": None, "Creator": None, "Date": None}
+_PROLOGUE = re.compile(r"^.*?(?=<svg\b)", re.S)
+_ID = re.compile(r'\bid="([^"]+)"')
+_REF = re.compile(r'(href="#|url\(#)([^")]+)')
+
+
+def to_svg(fig: Figure, name: str) -> str:
+    """Serialise ``fig`` as an inline ``<svg>`` element whose ids all start with ``name``."""
+    buffer = io.StringIO()
+    with matplotlib.rc_context({**_RC, "svg.hashsalt": name}):
+        FigureCanvasSVG(fig).print_svg(buffer, metadata=_NO_METADATA)
+    return _prefix_ids(_strip_prologue(buffer.getvalue()), name)
+
+
+def _strip_prologue(svg: str) -> str:
+    svg = _PROLOGUE.sub("", svg, count=1)
+    # matplotlib's global "*{...}" rule would leak into the HTML page; the page's CSS carries it.
+    return re.sub(r"<style[^>]*>.*?</style>", "", svg, count=1, flags=re.S)
+
+
+def _prefix_ids(svg: str, name: str) -> str:
+    svg = _ID.sub(lambda m: f'id="{name}-{m.group(1)}"', svg)
+    svg = _REF.sub(lambda m: f"{m.group(1)}{name}-{m.group(2)}", svg)
+    return svg.replace("<svg ", '<svg class="figure-svg" role="img" ', 1)
+
+
+def new_figure(width_in: float, height_in: float) -> Figure:
+    with matplotlib.rc_context(_RC):
+        return Figure(figsize=(width_in, height_in), layout="constrained")
+
+
+def _style(index: int) -> dict[str, Any]:
+    i = index % len(COLOURS)
+    return {"color": COLOURS[i], "marker": MARKERS[i], "linestyle": LINESTYLES[i], "markersize": 4.5, "linewidth": 1.4}
+
+
+def _numbers(values: Sequence[Any]) -> list[float]:
+    return [float(v) if fmt.is_number(v) else math.nan for v in values]
+
+
+# --------------------------------------------------------------------------- efficiency
+
+
+def efficiency_figure(points: Sequence[Mapping[str, Any]], maximum: Mapping[str, Any] | None) -> str | None:
+    """Efficiency against load, one curve per power factor, the maximum marked."""
+    curves = _curves_by_pf(points)
+    if not curves:
+        return None
+    with matplotlib.rc_context(_RC):
+        fig = new_figure(7.0, 3.6)
+        ax = fig.add_subplot()
+        for index, (pf, curve) in enumerate(curves):
+            ax.plot([n * 100 for n, _ in curve], [e for _, e in curve], label=f"power factor {fmt.num(pf, 3)}", **_style(index))
+        _mark_maximum(ax, maximum)
+        ax.set_xlabel("load (% of rated power)")
+        ax.set_ylabel("efficiency (%)")
+        ax.legend(loc="lower right", fontsize=8)
+        ax.set_xlim(left=0)
+    return to_svg(fig, "fig-efficiency")
+
+
+def _curves_by_pf(points: Sequence[Mapping[str, Any]]) -> list[tuple[float, list[tuple[float, float]]]]:
+    curves: dict[float, list[tuple[float, float]]] = {}
+    for p in points:
+        n, pf, eta = p.get("load_pu"), p.get("power_factor"), p.get("efficiency_pct")
+        if fmt.is_number(n) and fmt.is_number(pf) and fmt.is_number(eta):
+            curves.setdefault(float(pf), []).append((float(n), float(eta)))
+    return [(pf, sorted(curve)) for pf, curve in sorted(curves.items(), reverse=True)]
+
+
+def _mark_maximum(ax: Axes, maximum: Mapping[str, Any] | None) -> None:
+    if not maximum or not fmt.is_number(maximum.get("load_pu")) or not fmt.is_number(maximum.get("efficiency_pct")):
+        return
+    x, y = maximum["load_pu"] * 100, maximum["efficiency_pct"]
+    ax.plot([x], [y], marker="*", markersize=13, color="#000000", linestyle="none", zorder=5,
+            label=f"maximum {fmt.num(y, 5)} % at {fmt.num(x, 3)} % load")
+    ax.axvline(x, color="#000000", linewidth=0.8, linestyle=":")
+    ax.annotate(f"max {fmt.num(y, 5)} %", (x, y), xytext=(6, 6), textcoords="offset points", fontsize=8)
+
+
+# --------------------------------------------------------------------------- excitation
+
+
+def excitation_figure(sweep: Sequence[Mapping[str, Any]]) -> str | None:
+    """No-load current and loss against voltage, from the points of an excitation sweep."""
+    points = [p for p in sweep if fmt.is_number(p.get("u_V"))]
+    if len(points) < 2:
+        return None
+    use_pct = all(fmt.is_number(p.get("u_pct")) for p in points)
+    x = _numbers([p["u_pct"] if use_pct else p["u_V"] for p in points])
+    with matplotlib.rc_context(_RC):
+        fig = new_figure(7.0, 3.4)
+        ax = fig.add_subplot()
+        current = ax.plot(x, _numbers([p.get("i_A") for p in points]), label="no-load current", **_style(0))
+        ax.set_ylabel("no-load current (A)")
+        ax.set_xlabel("applied voltage (% of rated)" if use_pct else "applied voltage (V)")
+        loss_ax = ax.twinx()
+        loss_ax.grid(False)
+        loss_ax.spines["right"].set_visible(True)
+        loss = loss_ax.plot(x, _numbers([p.get("p_W") for p in points]), label="no-load loss", **_style(1))
+        loss_ax.set_ylabel("no-load loss (W)")
+        if use_pct:
+            ax.axvline(100, color="#000000", linewidth=0.8, linestyle=":")
+        ax.legend(handles=current + loss, loc="upper left", fontsize=8)
+    return to_svg(fig, "fig-excitation")
+
+
+# --------------------------------------------------------------------------- ramp traces
+
+_TRACE_PANELS = (("u_V", "voltage_V", "voltage (V)"), ("i_A", "current_A", "current (A)"), ("p_W", "power_W", "power (W)"))
+
+
+def trace_figure(trace: Mapping[str, Any], index: int, trip: Mapping[str, Any] | None = None) -> str | None:
+    """Voltage, current and power against time for one ramp, each with its limit drawn."""
+    t = _numbers(trace.get("t_s") or [])
+    panels = [p for p in _TRACE_PANELS if len(trace.get(p[0]) or []) == len(t) and t]
+    if not panels:
+        return None
+    with matplotlib.rc_context(_RC):
+        fig = new_figure(7.0, 1.5 + 1.25 * len(panels))
+        axes = fig.subplots(len(panels), 1, sharex=True, squeeze=False)[:, 0]
+        for i, (ax, (key, limit_key, label)) in enumerate(zip(axes, panels)):
+            ax.plot(t, _numbers(trace[key]), color=COLOURS[i], linewidth=1.3, label=label.split(" ")[0])
+            ax.set_ylabel(label)
+            _draw_limit(ax, (trace.get("limits") or {}).get(limit_key), label.split(" (")[1].rstrip(")"))
+            _draw_trip(ax, trace, trip)
+        axes[-1].set_xlabel("time (s)")
+    return to_svg(fig, f"fig-trace-{index}")
+
+
+def _draw_limit(ax: Axes, limit: Any, unit: str) -> None:
+    if not fmt.is_number(limit):
+        return
+    ax.axhline(limit, color=LIMIT_COLOUR, linestyle="--", linewidth=1.1)
+    ax.annotate(f"limit {fmt.num(limit)} {unit}", (1.0, limit), xycoords=("axes fraction", "data"),
+                xytext=(-4, -10), textcoords="offset points", ha="right", fontsize=7.5, color=LIMIT_COLOUR)
+    low, high = ax.get_ylim()
+    ax.set_ylim(min(low, 0), max(high, limit * 1.08))
+
+
+def _draw_trip(ax: Axes, trace: Mapping[str, Any], trip: Mapping[str, Any] | None) -> None:
+    if not trip or trip.get("step") != trace.get("step") or not fmt.is_number(trip.get("t_s")):
+        return
+    ax.axvline(trip["t_s"], color="#000000", linewidth=1.2, linestyle="-.")
+    ax.annotate("trip", (trip["t_s"], 1.0), xycoords=("data", "axes fraction"), xytext=(3, -10),
+                textcoords="offset points", fontsize=7.5)
+
+
+# --------------------------------------------------------------------------- equivalent circuit
+
+
+def circuit_figure(circuit: Mapping[str, Any], voltages: Mapping[str, Any]) -> str | None:
+    """The approximate equivalent circuit (shunt branch at the terminals), one panel per winding."""
+    sides = [s for s in ("hv", "lv") if isinstance(circuit.get(s), Mapping) and any(fmt.is_number(v) for v in circuit[s].values())]
+    if not sides:
+        return None
+    with matplotlib.rc_context(_RC):
+        fig = new_figure(3.6 * len(sides), 2.3)
+        for i, side in enumerate(sides):
+            ax = fig.add_subplot(1, len(sides), i + 1)
+            _draw_circuit(ax, circuit[side])
+            ax.set_title(_circuit_title(side, voltages.get(side)), fontsize=9)
+    return to_svg(fig, "fig-circuit")
+
+
+def _circuit_title(side: str, voltage: Any) -> str:
+    rated = f" ({fmt.eng(voltage, 'V', 3)})" if fmt.is_number(voltage) else ""
+    return f"referred to the {side.upper()} winding{rated}"
+
+
+def _draw_circuit(ax: Axes, values: Mapping[str, Any]) -> None:
+    ax.set_axis_off()
+    ax.set_xlim(-0.4, 10.4)
+    ax.set_ylim(-0.9, 3.0)
+    ax.set_aspect("equal")
+    wire = {"color": "#000000", "linewidth": 1.2}
+    ax.plot([0, 1.6, 3.2, 4.2], [2, 2, 2, 2], **wire)
+    ax.plot([0, 10], [0, 0], **wire)
+    for x in (1.6, 3.2):
+        ax.plot([x], [2], marker="o", markersize=3, color="#000000")
+        ax.plot([x], [0], marker="o", markersize=3, color="#000000")
+    _resistor(ax, (1.6, 2), (1.6, 0))
+    _inductor(ax, (3.2, 2), (3.2, 0))
+    _resistor(ax, (4.2, 2), (6.4, 2))
+    _inductor(ax, (6.6, 2), (8.8, 2))
+    ax.plot([6.4, 6.6], [2, 2], **wire)
+    ax.plot([8.8, 10], [2, 2], **wire)
+    for x in (0, 10):
+        for y in (0, 2):
+            ax.plot([x], [y], marker="o", markersize=5, markerfacecolor="#ffffff", color="#000000", zorder=4)
+    _circuit_labels(ax, values)
+
+
+def _circuit_labels(ax: Axes, values: Mapping[str, Any]) -> None:
+    text = {"fontsize": 8}
+    ax.text(1.25, 1.0, f"Rc\n{fmt.eng(values.get('Rc_ohm'), 'Ω')}", ha="right", va="center", **text)
+    ax.text(3.55, 1.0, f"Xm\n{fmt.eng(values.get('Xm_ohm'), 'Ω')}", ha="left", va="center", **text)
+    ax.text(5.3, 2.35, f"Req {fmt.eng(values.get('Req_ohm'), 'Ω')}", ha="center", va="bottom", **text)
+    ax.text(7.7, 2.45, f"Xeq {fmt.eng(values.get('Xeq_ohm'), 'Ω')}", ha="center", va="bottom", **text)
+    ax.text(0, -0.55, "supply side", ha="left", va="center", fontsize=7)
+    ax.text(10, -0.55, "load side", ha="right", va="center", fontsize=7)
+
+
+def _frame(a: tuple[float, float], b: tuple[float, float]) -> tuple[float, tuple[float, float], tuple[float, float]]:
+    """Length, unit vector along a->b and the unit normal of an element drawn from a to b."""
+    dx, dy = b[0] - a[0], b[1] - a[1]
+    length = math.hypot(dx, dy)
+    along = (dx / length, dy / length)
+    return length, along, (-along[1], along[0])
+
+
+def _resistor(ax: Axes, a: tuple[float, float], b: tuple[float, float]) -> None:
+    """IEC 60617 resistor: a plain rectangle on the wire."""
+    length, u, n = _frame(a, b)
+    lead, half = 0.25 * length, 0.22
+    s0, s1 = lead, length - lead
+    corners = [(s0, -half), (s1, -half), (s1, half), (s0, half), (s0, -half)]
+    xs = [a[0] + s * u[0] + w * n[0] for s, w in corners]
+    ys = [a[1] + s * u[1] + w * n[1] for s, w in corners]
+    ax.fill(xs, ys, facecolor="#ffffff", edgecolor="#000000", linewidth=1.2, zorder=3)
+    _leads(ax, a, b, u, lead)
+
+
+def _inductor(ax: Axes, a: tuple[float, float], b: tuple[float, float], turns: int = 4) -> None:
+    """An inductor as a row of half-turns on the wire."""
+    length, u, n = _frame(a, b)
+    lead = 0.2 * length
+    pitch = (length - 2 * lead) / turns
+    xs, ys = [], []
+    for k in range(turns):
+        centre = lead + (k + 0.5) * pitch
+        for j in range(13):
+            theta = math.pi * (1 - j / 12)
+            s, w = centre + 0.5 * pitch * math.cos(theta), 0.5 * pitch * math.sin(theta)
+            xs.append(a[0] + s * u[0] + w * n[0])
+            ys.append(a[1] + s * u[1] + w * n[1])
+    ax.plot(xs, ys, color="#000000", linewidth=1.2)
+    _leads(ax, a, b, u, lead)
+
+
+def _leads(ax: Axes, a: tuple[float, float], b: tuple[float, float], u: tuple[float, float], lead: float) -> None:
+    for start, sign in ((a, 1), (b, -1)):
+        end = (start[0] + sign * lead * u[0], start[1] + sign * lead * u[1])
+        ax.plot([start[0], end[0]], [start[1], end[1]], color="#000000", linewidth=1.2)

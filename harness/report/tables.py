@@ -1,0 +1,212 @@
+"""The report's tables as rows of text, built from the plain dicts of a bundle.
+
+Everything here tolerates missing keys: a tripped run may have only part of the results.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from harness.report import fmt
+
+# Unit of a results key, read from its suffix (the results contract names SI units in the key).
+_SUFFIX_UNITS = (
+    ("_pct", "%"), ("_pu", "p.u."), ("_ohm", "Ω"), ("_VA", "VA"), ("_Hz", "Hz"), ("_W", "W"),
+    ("_A", "A"), ("_V", "V"), ("_C", "°C"), ("_s", "s"),
+)
+
+
+@dataclass(frozen=True)
+class MainRow:
+    """One line of the results table: a quantity through its corrections to its verdict."""
+
+    quantity: str
+    unit: str
+    measured: str
+    corrected: str
+    at_reference: str
+    guaranteed: str
+    limit: str
+    verdict: str
+    verdict_class: str
+
+
+@dataclass(frozen=True)
+class _RowSpec:
+    label: str
+    unit: str
+    section: str
+    measured: str | None
+    corrected: str | None
+    at_reference: str | None
+    check_names: tuple[str, ...]
+
+
+# Which results keys fill which column. "Corrected" is the waveform correction for no-load loss
+# and the scaling to rated current for load loss and impedance.
+_ROWS = (
+    _RowSpec("No-load loss", "W", "no_load", "loss_measured_W", "loss_W", "loss_ref_W",
+             ("no_load_loss", "no_load_loss_W")),
+    _RowSpec("No-load current", "%", "no_load", "current_measured_pct", "current_pct", None,
+             ("no_load_current", "no_load_current_pct")),
+    _RowSpec("Load loss", "W", "load", "loss_measured_W", "loss_W", "loss_ref_W",
+             ("load_loss", "load_loss_W")),
+    _RowSpec("Short-circuit impedance", "%", "load", "impedance_measured_pct", "impedance_pct",
+             "impedance_ref_pct", ("impedance", "impedance_pct", "short_circuit_impedance")),
+    _RowSpec("Total losses", "W", "total", None, "loss_W", "loss_ref_W", ("total_loss", "total_loss_W", "total_losses")),
+)
+
+
+def unit_of(key: str) -> str:
+    for suffix, unit in _SUFFIX_UNITS:
+        if key.endswith(suffix):
+            return unit
+    return ""
+
+
+def label_of(key: str) -> str:
+    """'loss_measured_W' -> 'Loss measured'."""
+    stem = key
+    for suffix, _ in _SUFFIX_UNITS:
+        if key.endswith(suffix):
+            stem = key[: -len(suffix)]
+            break
+    words = stem.replace("_", " ").strip()
+    return words[:1].upper() + words[1:]
+
+
+def _checks_by_name(results: Mapping[str, Any]) -> dict[str, dict[str, Any]]:
+    return {str(c.get("quantity")): dict(c) for c in results.get("checks", []) or [] if isinstance(c, Mapping)}
+
+
+def _cell(section: Mapping[str, Any], key: str | None, unit: str) -> str:
+    return fmt.DASH if key is None else fmt.num(section.get(key))
+
+
+def _find_check(checks: dict[str, dict[str, Any]], names: tuple[str, ...]) -> dict[str, Any] | None:
+    return next((checks.pop(n) for n in names if n in checks), None)
+
+
+def _main_row(spec: _RowSpec, results: Mapping[str, Any], checks: dict[str, dict[str, Any]]) -> MainRow | None:
+    section = results.get(spec.section) or {}
+    check = _find_check(checks, spec.check_names)
+    keys = (spec.measured, spec.corrected, spec.at_reference)
+    if check is None and not any(k and fmt.is_number(section.get(k)) for k in keys):
+        return None
+    check = check or {}
+    return MainRow(
+        spec.label, spec.unit,
+        _cell(section, spec.measured, spec.unit), _cell(section, spec.corrected, spec.unit),
+        _cell(section, spec.at_reference, spec.unit),
+        fmt.num(check.get("guaranteed")), fmt.limit_text(check.get("limit"), ""),
+        fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")),
+    )
+
+
+def _extra_row(name: str, check: Mapping[str, Any]) -> MainRow:
+    """A check the table has no line for: its value is the one compared."""
+    return MainRow(
+        label_of(name), unit_of(name), fmt.DASH, fmt.num(check.get("value")), fmt.DASH,
+        fmt.num(check.get("guaranteed")), fmt.limit_text(check.get("limit"), ""),
+        fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")),
+    )
+
+
+def main_rows(results: Mapping[str, Any]) -> list[MainRow]:
+    checks = _checks_by_name(results)
+    rows = [row for spec in _ROWS if (row := _main_row(spec, results, checks)) is not None]
+    return rows + [_extra_row(name, check) for name, check in checks.items()]
+
+
+def detail_rows(section: Mapping[str, Any] | None) -> list[tuple[str, str, str]]:
+    """Every scalar of a results section as (label, value, unit), in the order calc gave them."""
+    if not isinstance(section, Mapping):
+        return []
+    return [(label_of(k), _scalar_text(v), unit_of(k)) for k, v in section.items() if _is_scalar(v)]
+
+
+def _is_scalar(value: Any) -> bool:
+    return value is None or isinstance(value, (int, float, str, bool))
+
+
+def _scalar_text(value: Any) -> str:
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    return fmt.num(value)
+
+
+def efficiency_table(points: list[Mapping[str, Any]]) -> tuple[list[str], list[tuple[str, list[str]]]]:
+    """Efficiency in % with one column per power factor and one row per load."""
+    pfs = sorted({p.get("power_factor") for p in points if fmt.is_number(p.get("power_factor"))}, reverse=True)
+    loads = sorted({p.get("load_pu") for p in points if fmt.is_number(p.get("load_pu"))})
+    value = {(p.get("load_pu"), p.get("power_factor")): p.get("efficiency_pct") for p in points}
+    rows = [(fmt.num(n * 100, 3), [fmt.num(value.get((n, pf)), 5) for pf in pfs]) for n in loads]
+    return [fmt.num(pf, 3) for pf in pfs], rows
+
+
+def regulation_rows(points: list[Mapping[str, Any]]) -> list[tuple[str, str, str, str, str]]:
+    def sense(p: Mapping[str, Any]) -> str:
+        if p.get("power_factor") == 1:
+            return "unity"
+        return {True: "lagging", False: "leading"}.get(p.get("lagging"), fmt.DASH)
+
+    return [
+        (fmt.num(_pct(p.get("load_pu")), 3), fmt.num(p.get("power_factor"), 3), sense(p),
+         fmt.num(p.get("regulation_pct")), fmt.num(p.get("voltage_drop_pct")))
+        for p in points
+    ]
+
+
+def _pct(per_unit: Any) -> Any:
+    return per_unit * 100 if fmt.is_number(per_unit) else per_unit
+
+
+def circuit_rows(circuit: Mapping[str, Any]) -> list[tuple[str, list[str]]]:
+    """Equivalent-circuit values with one column per winding they are referred to."""
+    sides = [s for s in ("hv", "lv") if isinstance(circuit.get(s), Mapping)]
+    names = (("Rc_ohm", "Core-loss resistance Rc"), ("Xm_ohm", "Magnetising reactance Xm"),
+             ("Req_ohm", "Series resistance Req"), ("Xeq_ohm", "Series reactance Xeq"))
+    return [(label, [fmt.eng(circuit[s].get(key), "Ω") for s in sides]) for key, label in names]
+
+
+def reading_rows(readings: list[Mapping[str, Any]]) -> list[dict[str, Any]]:
+    """Statistics of the raw samples behind each reading, as text."""
+    quantities = ("u_rms", "u_mean", "i_rms", "p")
+    return [
+        {
+            "tag": str(r.get("tag", fmt.DASH)), "step": fmt.num(r.get("step")) if r.get("step") is not None else fmt.DASH,
+            "count": fmt.num(r.get("count")),
+            "cells": [(fmt.num((r.get("mean") or {}).get(q)), fmt.num((r.get("std") or {}).get(q), 2)) for q in quantities],
+            "stable": _stable_text(r.get("stable")), "stable_class": fmt.verdict_class(r.get("stable")),
+        }
+        for r in readings
+    ]
+
+
+def _stable_text(stable: Any) -> str:
+    return {True: "✔ stable", False: "✘ not stable"}.get(stable, fmt.DASH) if isinstance(stable, bool) else fmt.DASH
+
+
+def uncertainty_rows(uncertainty: Mapping[str, Any] | None) -> list[dict[str, Any]]:
+    """One block per quantity: its standard and expanded uncertainty and the budget behind them."""
+    if not isinstance(uncertainty, Mapping):
+        return []
+    return [_uncertainty_block(q, u) for q, u in uncertainty.items() if isinstance(u, Mapping)]
+
+
+def _uncertainty_block(quantity: str, u: Mapping[str, Any]) -> dict[str, Any]:
+    budget = [b for b in u.get("budget", []) or [] if isinstance(b, Mapping)]
+    columns = list(dict.fromkeys(k for b in budget for k in b if k != "source"))
+    return {
+        "quantity": label_of(quantity), "unit": unit_of(quantity),
+        "standard": fmt.num(u.get("standard"), 3), "expanded": fmt.num(u.get("expanded"), 3),
+        "k": fmt.num(u.get("k"), 3), "columns": [label_of(c) + _unit_suffix(c) for c in columns],
+        "budget": [(str(b.get("source", fmt.DASH)), [_scalar_text(b.get(c)) for c in columns]) for b in budget],
+    }
+
+
+def _unit_suffix(key: str) -> str:
+    unit = unit_of(key)
+    return f" ({unit})" if unit else ""

@@ -1,0 +1,66 @@
+"""Opening the bay's instruments from a station, and the built-in simulated bay behind pyvisa."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+from drivers import open_instrument
+from harness.config.station import Instrument, Station
+
+
+@dataclass
+class Bay:
+    """The opened instruments of a station; the runner talks to the bay only through these."""
+    source: Any
+    analyser: Any
+    resistance_meter: Any = None
+    thermometer: Any = None
+    bay_control: Any = None
+    identities: list[dict[str, Any]] = field(default_factory=list)
+
+    def instruments(self) -> list[tuple[str, Any]]:
+        roles = ("source", "analyser", "resistance_meter", "thermometer", "bay_control")
+        return [(role, getattr(self, role)) for role in roles if getattr(self, role) is not None]
+
+    def close(self) -> None:
+        for _, instrument in self.instruments():
+            try:
+                instrument.close()
+            except Exception:  # noqa: BLE001 - closing is best effort; the bay is already safe
+                pass
+
+
+_KINDS = {"source": "ac_source", "analyser": "power_analyser", "resistance_meter": "resistance_meter",
+          "thermometer": "thermometer", "bay_control": "bay_control"}
+
+
+def open_bay(station: Station, rm: Any = None) -> Bay:
+    """Open every instrument the station names and ask each who it is.
+
+    Nothing is energised here; the caller then puts the source at zero with its output off.
+    """
+    opened: dict[str, Any] = {}
+    identities: list[dict[str, Any]] = []
+    try:
+        for role, kind in _KINDS.items():
+            spec: Instrument | None = getattr(station.instruments, role)
+            if spec is None:
+                continue
+            instrument = open_instrument(kind, spec.resource, spec.profile, role, rm=rm, timeout_s=spec.timeout)
+            opened[role] = instrument
+            identities.append(_identity(role, spec, instrument.identify()))
+    except BaseException:
+        for instrument in opened.values():
+            try:
+                instrument.close()
+            except Exception:  # noqa: BLE001
+                pass
+        raise
+    return Bay(identities=identities, **opened)
+
+
+def _identity(role: str, spec: Instrument, idn: Any) -> dict[str, Any]:
+    return {"role": role, "maker": idn.maker, "model": idn.model, "serial": idn.serial,
+            "firmware": idn.firmware, "resource": spec.resource, "profile": spec.profile,
+            "calibration_due": spec.calibration_due.isoformat() if spec.calibration_due else None}

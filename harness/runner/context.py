@@ -1,0 +1,196 @@
+"""The state of one run and the reading loop every energising step goes through.
+
+snapshot -> wiring ratios -> limit checks -> store -> progress. Nothing reaches a controller
+that has not passed the supervisor.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+from harness.common.clock import Clock
+from harness.config.checks import EffectiveLimits, rated_current, rated_voltage, resolve_target
+from harness.config.sequence import Sequence
+from harness.config.station import Station
+from harness.config.steps import Wiring
+from harness.runner.bay import Bay
+from harness.safety import ReadingFault, SafeOutcome, Supervisor, make_safe
+
+# Host jitter does not scale with the simulated bay's clock: a reading counts as late only past
+# this many real seconds as well as past the station's bay-time threshold.
+LATE_FLOOR_REAL_S = 0.25
+
+
+@dataclass(frozen=True, slots=True)
+class Sample:
+    """One checked reading in primary quantities (wiring ratios applied)."""
+    id: int
+    t: float
+    u_rms: float
+    u_mean: float
+    i_rms: float
+    p: float
+    freq: float
+    setpoint: float
+
+
+@dataclass
+class MeasuredReading:
+    """The averaged result of a measure step: what the record is built from."""
+    test: str
+    label: str
+    step: int
+    winding: str
+    count: int
+    mean: dict[str, float]
+    std: dict[str, float]
+    stable: bool
+    winding_temperature: float | None
+    target_pct: float | None = None
+
+
+@dataclass
+class Run:
+    run_id: str
+    sequence: Sequence
+    station: Station
+    clock: Clock
+    bay: Bay
+    store: Any
+    progress: Any
+    yes: bool = False
+    supervisor: Supervisor = field(init=False)
+    wiring: Wiring | None = None
+    energised: bool = False
+    setpoint: float = 0.0
+    step_index: int = -1
+    step_title: str = ""
+    last_sample: Sample | None = None
+    temperatures: dict[str, float] = field(default_factory=dict)
+    resistances: dict[str, tuple[float, float]] = field(default_factory=dict)
+    readings: list[MeasuredReading] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    gains: dict[str, float] = field(default_factory=dict)
+    _next_temperature_t: float = 0.0
+
+    def __post_init__(self) -> None:
+        from harness.config.checks import station_limits
+        limits = station_limits(self.station).tightened(self.sequence.limits)
+        self.base_limits = limits
+        self.supervisor = Supervisor(limits, self.station.readings, self.clock)
+
+    # -- limits -----------------------------------------------------------------------------
+    def use_limits(self, limits: EffectiveLimits, title: str) -> None:
+        self.supervisor.limits = limits
+        self.supervisor.step = title
+
+    # -- events -----------------------------------------------------------------------------
+    def event(self, kind: str, text: str, data: dict[str, Any] | None = None) -> None:
+        self.store.add_event(self.run_id, self.clock.now(), kind, text, data)
+        self.progress.event(kind, text)
+
+    def warn(self, text: str) -> None:
+        self.warnings.append(text)
+        self.event("warning", text)
+
+    # -- the source -------------------------------------------------------------------------
+    def send_setpoint(self, volts: float) -> None:
+        self.supervisor.check_setpoint(volts)
+        self.bay.source.set_voltage(volts)
+        self.setpoint = volts
+
+    def energise(self) -> None:
+        if self.energised:
+            return
+        self.send_setpoint(0.0)
+        self.bay.source.set_output(True)
+        self.energised = True
+        self.supervisor.energised_since = self.clock.now()
+        self.event("energised", "source output on at zero volts")
+
+    # -- readings ---------------------------------------------------------------------------
+    def read(self, tag: str | None = None) -> Sample:
+        t0 = self.clock.now()
+        snap = self.bay.analyser.snapshot()
+        t1 = self.clock.now()
+        ch = snap.channels[0]
+        m = self.station.measurement
+        u, um, i = ch.u_rms * m.vt_ratio, ch.u_mean * m.vt_ratio, ch.i_rms * m.ct_ratio
+        p = ch.p * m.vt_ratio * m.ct_ratio
+        age = t1 - t0 if self.clock.real(t1 - t0) > LATE_FLOOR_REAL_S else 0.0
+        sid = self.store.add_sample(self.run_id, self.step_index, t1, 1, u, um, i, p, ch.freq, self.setpoint, tag)
+        self.supervisor.check_reading(u, um, i, p, t1, age)
+        sample = Sample(sid, t1, u, um, i, p, ch.freq, self.setpoint)
+        self.last_sample = sample
+        self._watch_temperature(t1)
+        self.progress.sample(sample, self.supervisor.limits)
+        return sample
+
+    def _watch_temperature(self, t: float) -> None:
+        if not self.energised or t < self._next_temperature_t:
+            return
+        self._next_temperature_t = t + self.station.readings.temperature_interval
+        value = self.read_temperature("winding")
+        if value is not None:
+            self.supervisor.check_temperature(value)
+
+    def read_temperature(self, name: str) -> float | None:
+        thermometer = self.bay.thermometer
+        spec = self.station.instruments.thermometer
+        if thermometer is None or spec is None or name not in spec.channels:
+            return None
+        value = thermometer.read(spec.channels[name])
+        if not math.isfinite(value):
+            raise ReadingFault(f"thermometer channel '{name}' is not a number", step=self.step_title)
+        self.temperatures[name] = value
+        return value
+
+    def winding_temperature(self) -> float | None:
+        """Best available estimate of the mean winding temperature."""
+        for name in ("winding", "oil", "ambient"):
+            value = self.read_temperature(name)
+            if value is not None:
+                return value
+        return None
+
+    # -- wiring and targets -------------------------------------------------------------------
+    @property
+    def fed(self) -> str:
+        if self.wiring is None:
+            raise ReadingFault("no wiring declared before an energising step", step=self.step_title)
+        return self.wiring.fed
+
+    def target_value(self, step: Any, text: str) -> float:
+        return resolve_target(self.sequence, step, text, self.fed)
+
+    def rated(self, quantity: str) -> float:
+        winding = self.fed
+        return rated_voltage(self.sequence, winding) if quantity == "voltage" else rated_current(self.sequence, winding)
+
+    # -- safe state -----------------------------------------------------------------------------
+    def make_safe(self) -> SafeOutcome:
+        self.store.flush()
+        outcome = make_safe(self.bay.source, self._probes(), self.station.safe_state, self.clock)
+        self.setpoint = 0.0
+        if outcome.confirmed:
+            self.energised = False
+            self.supervisor.energised_since = None
+        return outcome
+
+    def _probes(self) -> list[tuple[str, Callable[[], tuple[float, float]]]]:
+        m = self.station.measurement
+
+        def analyser() -> tuple[float, float]:
+            ch = self.bay.analyser.snapshot().channels[0]
+            return max(ch.u_rms, ch.u_mean) * m.vt_ratio, ch.i_rms * m.ct_ratio
+
+        def source() -> tuple[float, float]:
+            u = self.bay.source.measured_voltage()
+            i = self.bay.source.measured_current()
+            if u is None:
+                raise ReadingFault("the source has no voltage readback")
+            return u, i if i is not None else 0.0
+
+        return [("power analyser", analyser), ("source readback", source)]

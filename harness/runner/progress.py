@@ -1,0 +1,74 @@
+"""Progress on stderr: step, live U/I/P and the headroom to the nearest limit.
+
+A live rich panel on a terminal; plain event lines otherwise (CI, pipes, --json runs).
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+from typing import Any
+
+from rich.console import Console
+from rich.live import Live
+from rich.table import Table
+
+REFRESH_S = 0.1
+
+
+class Progress:
+    def __init__(self, quiet: bool = False):
+        self.console = Console(stderr=True, highlight=False)
+        self.quiet = quiet
+        self.live: Live | None = None
+        self._last = 0.0
+        self._step = ""
+        self._stage = ""
+
+    def __enter__(self) -> "Progress":
+        if self.console.is_terminal and not self.quiet:
+            self.live = Live(self._table(None, None), console=self.console, refresh_per_second=8, transient=True)
+            self.live.__enter__()
+        return self
+
+    def __exit__(self, *exc: Any) -> None:
+        if self.live is not None:
+            self.live.__exit__(*exc)
+            self.live = None
+
+    def step(self, index: int, kind: str, title: str) -> None:
+        self._step, self._stage = f"step {index + 1}: {title}", ""
+        self._print(f"[bold]{self._step}[/bold]")
+
+    def stage(self, text: str, done: float, total: float) -> None:
+        pct = 100 * done / total if total else 0
+        self._stage = f"{text}  [{'#' * int(pct / 5):<20}] {pct:3.0f} %"
+
+    def event(self, kind: str, text: str) -> None:
+        style = {"warning": "yellow", "trip": "bold red", "unsafe": "bold red on white"}.get(kind, "")
+        self._print(f"  [{style}]{kind}: {text}[/{style}]" if style else f"  {kind}: {text}")
+
+    def sample(self, sample: Any, limits: Any) -> None:
+        now = time.monotonic()
+        if self.live is None or now - self._last < REFRESH_S:
+            return
+        self._last = now
+        self.live.update(self._table(sample, limits))
+
+    def _print(self, text: str) -> None:
+        if not self.quiet or "red" in text:
+            self.console.print(text)
+
+    def _table(self, s: Any, limits: Any) -> Table:
+        table = Table.grid(padding=(0, 2))
+        table.add_row(self._step, self._stage)
+        if s is not None:
+            headroom = min((1 - s.u_rms / limits.voltage, "U"), (1 - s.i_rms / limits.current, "I"),
+                           (1 - abs(s.p) / limits.power, "P"))
+            table.add_row(f"U {s.u_rms:9.4g} V   U' {s.u_mean:9.4g} V   I {s.i_rms:9.4g} A   P {s.p:9.4g} W",
+                          f"headroom {100 * headroom[0]:5.1f} % ({headroom[1]})   set {s.setpoint:8.4g} V")
+        return table
+
+
+def is_interactive() -> bool:
+    return sys.stdin.isatty()

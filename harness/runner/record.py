@@ -1,0 +1,48 @@
+"""From the measured steps to the record of the contract, for the calculation core."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from harness.runner.context import MeasuredReading, Run
+
+
+def _last(run: Run, test: str) -> MeasuredReading | None:
+    found = [r for r in run.readings if r.test == test]
+    return found[-1] if found else None
+
+
+def no_load_section(r: MeasuredReading) -> dict[str, Any]:
+    return {"winding": r.winding, "voltage": r.mean["u_rms"], "voltage_mean": r.mean["u_mean"],
+            "current": r.mean["i_rms"], "power": r.mean["p"]}
+
+
+def load_section(r: MeasuredReading) -> dict[str, Any]:
+    section = {"winding": r.winding, "voltage": r.mean["u_rms"], "current": r.mean["i_rms"], "power": r.mean["p"]}
+    if r.winding_temperature is not None:
+        section["temperature"] = r.winding_temperature
+    return section
+
+
+def build_record(run: Run, load: MeasuredReading | None = None) -> dict[str, Any]:
+    """The record as plain data (SI numbers); the calculation core validates it."""
+    seq = run.sequence
+    record: dict[str, Any] = {"standard": seq.standard,
+                              "transformer": seq.transformer.model_dump(mode="json", exclude_none=True)}
+    no_load = _last(run, "no-load")
+    load = load or _last(run, "load-loss")
+    if no_load:
+        record["no_load"] = no_load_section(no_load)
+    if load:
+        record["load"] = load_section(load)
+    if run.resistances:
+        record["winding_resistance"] = {w: {"resistance": ohm, "temperature": t} for w, (ohm, t) in run.resistances.items()}
+    for key in ("guarantees", "tolerances"):
+        value = getattr(seq, key)
+        if value is not None:
+            record[key] = value.model_dump(mode="json", exclude_none=True)
+    return record
+
+
+def load_series(run: Run) -> list[MeasuredReading]:
+    return [r for r in run.readings if r.test == "load-loss"]

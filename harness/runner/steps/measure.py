@@ -1,0 +1,65 @@
+"""Take N readings at an interval until they are stable, and keep their statistics.
+
+Stability: the relative standard deviation of U, I and P over the last N readings is within
+the step's criterion. Readings go on (a sliding window) up to ``max_readings``; a window that
+never settles is kept with a warning, since an unstable reading is a finding in itself.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from harness.calc.reduce import window_stats
+from harness.runner.context import MeasuredReading, Run, Sample
+from harness.runner.steps import register
+
+QUANTITIES = ("u_rms", "u_mean", "i_rms", "p")
+
+
+def measure(run: Run, test: str, label: str, readings: int, interval: float, stability_pct: float,
+            max_readings: int, target_pct: float | None = None) -> MeasuredReading:
+    window: list[Sample] = []
+    temps: list[float] = []
+    stats = None
+    for n in range(max_readings):
+        run.clock.sleep(interval)
+        window.append(run.read(tag=test))
+        if test == "load-loss":
+            t = run.winding_temperature()
+            if t is not None:
+                temps.append(t)
+        window = window[-readings:]
+        if len(window) == readings:
+            stats = _stats(window)
+            if stats["stable"](stability_pct):
+                break
+    assert stats is not None
+    stable = stats["stable"](stability_pct)
+    if not stable:
+        run.warn(f"{label}: readings not stable within {stability_pct:g} % after {max_readings} readings")
+    result = MeasuredReading(test, label, run.step_index, run.fed, len(window), stats["mean"], stats["std"],
+                             stable, float(np.mean(temps[-readings:])) if temps else None, target_pct)
+    run.store.add_reading(run.run_id, run.step_index, label, window[0].id, window[-1].id,
+                          {"mean": result.mean, "std": result.std, "count": result.count, "stable": stable,
+                           "test": test, "winding": result.winding, "winding_temperature": result.winding_temperature})
+    run.readings.append(result)
+    return result
+
+
+def _stats(window: list[Sample]) -> dict:
+    columns = {q: np.fromiter((getattr(s, q) for s in window), float, len(window)) for q in QUANTITIES}
+    reduced = {q: window_stats(values) for q, values in columns.items()}
+    mean = {q: r["mean"] for q, r in reduced.items()}
+    std = {q: r["std"] for q, r in reduced.items()}
+    rel = max(abs(std[q]) / abs(mean[q]) * 100 if mean[q] else float("inf") for q in ("u_rms", "i_rms", "p"))
+    return {"mean": mean, "std": std, "stable": lambda pct: rel <= pct}
+
+
+@register("measure")
+def execute(step, run: Run) -> None:
+    label = step.label or {"no-load": "no-load", "load-loss": "load loss", "none": "reading"}[step.test]
+    r = measure(run, step.test, label, step.readings, step.interval, step.stability, step.max_readings)
+    m = r.mean
+    run.event("reading", f"{label}: U {m['u_rms']:.5g} V, U' {m['u_mean']:.5g} V, I {m['i_rms']:.5g} A, "
+                         f"P {m['p']:.5g} W ({r.count} readings, {'stable' if r.stable else 'NOT stable'})",
+              {"mean": m, "std": r.std, "test": step.test})

@@ -1,0 +1,25 @@
+"""Ramp down, output off, de-energisation confirmed by measurement."""
+
+from __future__ import annotations
+
+from harness.runner.context import Run
+from harness.runner.steps import register
+from harness.safety import Trip
+
+
+class NotConfirmed(Trip):
+    """The bay could not be shown de-energised: the run must end as unsafe."""
+
+
+def switch_off(run: Run, why: str) -> None:
+    outcome = run.make_safe()
+    run.event("off", f"{why}: output off, " + ("de-energisation confirmed" if outcome.confirmed else "NOT confirmed"),
+              outcome.as_dict())
+    if not outcome.confirmed:
+        raise NotConfirmed("de-energisation not confirmed after switching off", "voltage", outcome.voltage,
+                           run.station.safe_state.deenergised_voltage, run.step_title, run.clock.now())
+
+
+@register("off")
+def execute(step, run: Run) -> None:
+    switch_off(run, step.title())

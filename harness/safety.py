@@ -1,0 +1,167 @@
+"""Limits on every setpoint and reading, and the one safe-state procedure for every cause.
+
+The software is not a protective device: hardware interlocks, the source's own current
+protection and an emergency stop must act independently of it. This module is the harness's
+own layer on top of them.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+from harness.common.clock import Clock
+from harness.common.errors import HarnessError
+from harness.config.checks import EffectiveLimits
+from harness.config.station import ReadingChecks, SafeState
+
+_UNITS = {"voltage": "V", "current": "A", "power": "W", "energised_time": "s", "winding_temperature": "degC"}
+
+
+class Trip(HarnessError):
+    """A reason to stop now and make the bay safe; carries what the report's banner shows."""
+
+    def __init__(self, cause: str, quantity: str | None = None, value: float | None = None,
+                 limit: float | None = None, step: str | None = None, time: float | None = None):
+        self.cause, self.quantity, self.value, self.limit = cause, quantity, value, limit
+        self.step, self.time = step, time
+        super().__init__(self.sentence())
+
+    def sentence(self) -> str:
+        if self.quantity and self.value is not None and self.limit is not None:
+            unit = _UNITS.get(self.quantity, "")
+            return f"{self.cause}: {self.quantity} {self.value:.4g} {unit} against the limit of {self.limit:.4g} {unit}"
+        return self.cause
+
+    def as_dict(self) -> dict[str, Any]:
+        return {"cause": self.cause, "quantity": self.quantity, "value": self.value,
+                "limit": self.limit, "step": self.step, "time": self.time, "text": self.sentence()}
+
+
+class LimitTrip(Trip):
+    """A setpoint or reading beyond a limit."""
+
+
+class ReadingFault(Trip):
+    """A reading that cannot be trusted: not a number, late, missing, stale or over-range."""
+
+
+@dataclass
+class Supervisor:
+    """Checks against the effective limits of the step being run."""
+    limits: EffectiveLimits
+    checks: ReadingChecks
+    clock: Clock
+    step: str = ""
+    energised_since: float | None = None
+    _last_values: tuple[float, ...] | None = None
+    _last_change: float = 0.0
+
+    def trip(self, quantity: str, value: float, limit: float) -> LimitTrip:
+        return LimitTrip(f"{quantity.replace('_', ' ')} limit", quantity, value, limit, self.step, self.clock.now())
+
+    def check_setpoint(self, volts: float) -> None:
+        if not math.isfinite(volts) or volts < 0:
+            raise LimitTrip("invalid setpoint", "voltage", volts, self.limits.voltage, self.step, self.clock.now())
+        if volts > self.limits.voltage:
+            raise self.trip("voltage", volts, self.limits.voltage)
+
+    def check_reading(self, u_rms: float, u_mean: float, i_rms: float, p: float, t: float, age: float) -> None:
+        """``t`` is the bay time of the reading, ``age`` how long the query took (bay s)."""
+        values = (u_rms, u_mean, i_rms, p)
+        if not all(math.isfinite(v) for v in values):
+            raise ReadingFault("reading is not a number", step=self.step, time=t)
+        if age > self.checks.late_after:
+            raise ReadingFault("reading late", "time", age, self.checks.late_after, self.step, t)
+        self._check_bounds(max(u_rms, u_mean), abs(i_rms), abs(p))
+        self._check_time(t)
+        self._check_stale(values, t)
+
+    def _check_bounds(self, u: float, i: float, p: float) -> None:
+        if u > self.limits.voltage:
+            raise self.trip("voltage", u, self.limits.voltage)
+        if i > self.limits.current:
+            raise self.trip("current", i, self.limits.current)
+        if p > self.limits.power:
+            raise self.trip("power", p, self.limits.power)
+
+    def _check_time(self, t: float) -> None:
+        if self.energised_since is not None and t - self.energised_since > self.limits.energised_time:
+            raise self.trip("energised_time", t - self.energised_since, self.limits.energised_time)
+
+    def _check_stale(self, values: tuple[float, ...], t: float) -> None:
+        if values != self._last_values:
+            self._last_values, self._last_change = values, t
+        elif self.energised_since is not None and t - self._last_change > self.checks.stale_after:
+            raise ReadingFault("readings stale (identical)", "time", t - self._last_change,
+                               self.checks.stale_after, self.step, t)
+
+    def check_temperature(self, degc: float) -> None:
+        if not math.isfinite(degc):
+            raise ReadingFault("winding temperature is not a number", step=self.step, time=self.clock.now())
+        if degc > self.limits.winding_temperature:
+            raise self.trip("winding_temperature", degc, self.limits.winding_temperature)
+
+
+@dataclass
+class SafeOutcome:
+    confirmed: bool
+    method: str
+    voltage: float | None = None
+    current: float | None = None
+    notes: list[str] = field(default_factory=list)
+
+    def as_dict(self) -> dict[str, Any]:
+        return {"confirmed": self.confirmed, "method": self.method, "voltage_V": self.voltage,
+                "current_A": self.current, "notes": self.notes}
+
+
+Probe = Callable[[], tuple[float, float]]
+
+
+def make_safe(source: Any, probes: list[tuple[str, Probe]], config: SafeState, clock: Clock) -> SafeOutcome:
+    """Source to zero, output off, then confirm de-energisation by measurement.
+
+    ``probes`` are tried in order (the analyser first, the source's own readback when the
+    analyser is what failed); each returns (voltage, current). Every step is attempted even
+    when an earlier one fails, because the aim is to remove energy by any means left.
+    """
+    notes: list[str] = []
+    for action, call in (("set voltage to zero", lambda: source.set_voltage(0.0)),
+                         ("turn output off", lambda: source.set_output(False))):
+        try:
+            call()
+        except Exception as exc:  # noqa: BLE001 - every failure is noted, none may stop the procedure
+            notes.append(f"could not {action}: {exc}")
+    return _confirm(probes, config, clock, notes)
+
+
+def _confirm(probes: list[tuple[str, Probe]], config: SafeState, clock: Clock, notes: list[str]) -> SafeOutcome:
+    deadline = clock.now() + config.confirm_timeout
+    probes = list(probes)
+    last: tuple[float, float] | None = None
+    method = "none"
+    while probes:
+        name, probe = probes[0]
+        try:
+            last, method = probe(), name
+        except Exception as exc:  # noqa: BLE001 - a failed probe is dropped, the next one tried
+            notes.append(f"{name} could not confirm: {exc}")
+            probes.pop(0)
+            continue
+        if _is_dead(last, config):
+            return SafeOutcome(True, method, last[0], last[1], _unique(notes))
+        if clock.now() >= deadline:
+            break
+        clock.sleep(min(0.2, config.confirm_timeout / 10))
+    return SafeOutcome(False, method, last[0] if last else None, last[1] if last else None, _unique(notes))
+
+
+def _is_dead(reading: tuple[float, float], config: SafeState) -> bool:
+    u, i = reading
+    return math.isfinite(u) and math.isfinite(i) and abs(u) < config.deenergised_voltage and abs(i) < config.deenergised_current
+
+
+def _unique(notes: list[str]) -> list[str]:
+    return list(dict.fromkeys(notes))

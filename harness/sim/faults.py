@@ -1,0 +1,121 @@
+"""Faults of the simulated bay: what each one does, when it starts, and its state during a run.
+
+A fault is chosen by name (``--fault NAME``, with the default trigger below) or in a scenario
+with its own trigger. A trigger is one condition: bay seconds energised, the output voltage
+passing a value, or a number of analyser queries answered while energised; none means active
+from the start.
+"""
+
+from __future__ import annotations
+
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+from harness.common.units import Duration, Voltage
+
+FAULTS: dict[str, str] = {
+    "shorted-turn": "a shorted turn in the core window: the energised winding draws about ten times "
+                    "its normal no-load current at rated voltage, rising linearly with voltage",
+    "missing-link": "the short-circuit link is not fitted: with the other winding set to 'short' "
+                    "it is in fact open, so a ramp to rated current drives the voltage up",
+    "analyser-silent": "the power analyser stops answering queries (commands are swallowed) "
+                       "once triggered, by default after 5 bay seconds energised",
+    "overrange": "the analyser's current input overloads: current and power read 9.9E37 while "
+                 "the output is energised, once triggered (default after 2 bay seconds energised)",
+    "stuck-output": "the source's output contactor is stuck: voltage 0, OUTPut OFF, the watchdog "
+                    "and the current protection are ignored, the output stays live",
+    "garbage-reply": "one query reply of the instrument is garbled (default the analyser, "
+                     "after 3 bay seconds energised)",
+    "dropped-connection": "the instrument closes its socket on the next query (default the "
+                          "analyser, after 3 bay seconds energised); new connections are accepted",
+}
+
+FaultName = Literal["shorted-turn", "missing-link", "analyser-silent", "overrange",
+                    "stuck-output", "garbage-reply", "dropped-connection"]
+Role = Literal["source", "analyser", "resistance_meter", "thermometer", "bay_control"]
+
+# Faults that act on one instrument's link rather than on the physics.
+LINK_FAULTS = ("analyser-silent", "garbage-reply", "dropped-connection")
+
+
+class FaultTrigger(BaseModel):
+    """At most one condition; none = active from the start."""
+
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+    after_energised: Duration | None = Field(None, ge=0, description="bay seconds with the output on")
+    voltage_above: Voltage | None = Field(None, gt=0, description="source output voltage (rms)")
+    after_queries: int | None = Field(None, ge=0, description="analyser queries answered while energised")
+
+    @model_validator(mode="after")
+    def _one_condition(self) -> "FaultTrigger":
+        given = [v for v in (self.after_energised, self.voltage_above, self.after_queries) if v is not None]
+        if len(given) > 1:
+            raise ValueError("give at most one of after_energised, voltage_above, after_queries")
+        return self
+
+
+class FaultSpec(BaseModel):
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+    name: FaultName
+    trigger: FaultTrigger = FaultTrigger()
+    instrument: Role = "analyser"
+    repeat: int = Field(1, ge=1, description="garbled replies or dropped connections to cause")
+
+    @model_validator(mode="after")
+    def _instrument_only_for_link_faults(self) -> "FaultSpec":
+        if self.name not in LINK_FAULTS and self.instrument != "analyser":
+            raise ValueError(f"'{self.name}' acts on the bay, not on one instrument: drop 'instrument'")
+        if self.name == "analyser-silent" and self.instrument != "analyser":
+            raise ValueError("'analyser-silent' acts on the analyser only")
+        return self
+
+
+DEFAULT_TRIGGERS: dict[str, FaultTrigger] = {
+    "shorted-turn": FaultTrigger(),
+    "missing-link": FaultTrigger(),
+    "analyser-silent": FaultTrigger(after_energised=5.0),
+    "overrange": FaultTrigger(after_energised=2.0),
+    "stuck-output": FaultTrigger(),
+    "garbage-reply": FaultTrigger(after_energised=3.0),
+    "dropped-connection": FaultTrigger(after_energised=3.0),
+}
+
+
+def fault_spec(fault: str | FaultSpec) -> FaultSpec:
+    """A fault given by name gets its default trigger; an unknown name is a clear error."""
+    if isinstance(fault, FaultSpec):
+        return fault
+    if fault not in FAULTS:
+        raise ValueError(f"unknown fault '{fault}'; known: {', '.join(FAULTS)}")
+    return FaultSpec(name=fault, trigger=DEFAULT_TRIGGERS[fault])
+
+
+class FaultState:
+    """One fault during a run: armed until its trigger holds, then active (latched)."""
+
+    def __init__(self, spec: FaultSpec):
+        self.spec = spec
+        self.active = False
+        self.activated_at: float | None = None
+        self.remaining = spec.repeat
+
+    def update(self, now: float, energised_s: float, voltage: float, queries: int) -> None:
+        if self.active:
+            return
+        t = self.spec.trigger
+        if ((t.after_energised is not None and energised_s < t.after_energised)
+                or (t.voltage_above is not None and voltage <= t.voltage_above)
+                or (t.after_queries is not None and queries < t.after_queries)):
+            return
+        self.active = True
+        self.activated_at = now
+
+    def consume(self) -> bool:
+        """For one-shot link faults: True (and one fewer left) while any remain."""
+        if not self.active or self.remaining <= 0:
+            return False
+        self.remaining -= 1
+        return True

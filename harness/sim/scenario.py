@@ -1,0 +1,241 @@
+"""Scenarios of the simulated bay: the unit under test, the bay's source and instruments, faults.
+
+A scenario is a versioned YAML file in ``sim_configs/`` (``spec: 1``), validated with line
+numbers. Values take units ("6.6 kV", "4.85 ohm", "30 min"); plain numbers are SI.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+from harness.common.errors import InputError
+from harness.common.units import (
+    Angle, ApparentPower, Current, Duration, Frequency, Percent, Power, Resistance, Temperature,
+    Voltage, VoltageRate, quantity,
+)
+from harness.common.yamlio import load_model
+from harness.sim.faults import FaultSpec
+
+SPEC_VERSION = 1
+SIM_CONFIGS = Path(__file__).resolve().parents[2] / "sim_configs"
+HeatCapacity = quantity("J/K")
+
+# IEC 60076-1 material constants for resistance against temperature [S: reference notes].
+MATERIAL_CONSTANT = {"copper": 235.0, "aluminium": 225.0}
+
+
+class _Frozen(BaseModel):
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+
+class WindingSpec(_Frozen):
+    rated_voltage: Voltage = Field(gt=0)
+    resistance: Resistance = Field(gt=0, description="d.c., at resistance_temperature")
+    leakage_reactance: Resistance = Field(gt=0, description="its own side, at rated frequency")
+
+
+class CoreSpec(_Frozen):
+    loss: Power = Field(gt=0, description="at rated voltage and frequency, sinusoidal")
+    hysteresis_fraction: float = Field(0.5, ge=0, le=1, description="share of the loss at rated flux")
+    steinmetz_exponent: float = Field(1.8, ge=1, le=3, description="hysteresis loss ~ peak flux ** this")
+    magnetising_current: Percent = Field(gt=0, lt=50, description="quadrature current at rated voltage, % of rated")
+    knee_share: float = Field(0.3, ge=0, lt=1, description="share of the peak magnetising current from the saturating term at rated flux")
+    knee_exponent: int = Field(15, ge=3, le=41, description="odd power of flux of the saturating term")
+
+    @model_validator(mode="after")
+    def _odd_exponent(self) -> "CoreSpec":
+        if self.knee_exponent % 2 == 0:
+            raise ValueError("knee_exponent must be odd (the current keeps the sign of the flux)")
+        return self
+
+
+class ThermalSpec(_Frozen):
+    heat_capacity: HeatCapacity = Field(gt=0)
+    time_constant: Duration = Field(gt=0)
+
+
+class TransformerSpec(_Frozen):
+    name: str = Field(min_length=1)
+    phases: Literal[1] = 1
+    rated_power: ApparentPower = Field(gt=0)
+    frequency: Frequency = Field(gt=0)
+    winding_material: Literal["copper", "aluminium"]
+    hv: WindingSpec
+    lv: WindingSpec
+    resistance_temperature: Temperature = 20.0
+    reference_temperature: Temperature = 75.0
+    additional_loss: Power = Field(ge=0, description="stray/eddy load loss at rated current and reference temperature")
+    core: CoreSpec
+    winding_thermal: ThermalSpec
+    oil_thermal: ThermalSpec
+    link_resistance: Resistance = Field(gt=0, description="the short-circuit link")
+
+    @model_validator(mode="after")
+    def _hv_above_lv(self) -> "TransformerSpec":
+        if self.hv.rated_voltage <= self.lv.rated_voltage:
+            raise ValueError("hv.rated_voltage must be above lv.rated_voltage")
+        return self
+
+    @property
+    def material_constant(self) -> float:
+        return MATERIAL_CONSTANT[self.winding_material]
+
+    def rated_current(self, side: str) -> float:
+        return self.rated_power / self.winding(side).rated_voltage
+
+    def winding(self, side: str) -> WindingSpec:
+        return self.hv if side == "hv" else self.lv
+
+
+class HarmonicSpec(_Frozen):
+    order: int = Field(ge=2, le=25)
+    amplitude: Percent = Field(ge=0, le=30, description="% of the fundamental")
+    phase: Angle = 0.0
+
+
+class SourceSpec(_Frozen):
+    max_voltage: Voltage = Field(gt=0)
+    max_current: Current = Field(gt=0)
+    max_slew: VoltageRate = Field(gt=0)
+    settling_time_constant: Duration = Field(ge=0)
+    min_frequency: Frequency = Field(45.0, gt=0)
+    max_frequency: Frequency = Field(65.0, gt=0)
+    output_resistance: Resistance = Field(0.0, ge=0)
+    output_reactance: Resistance = Field(0.0, ge=0, description="at the rated frequency of the unit")
+    harmonics: tuple[HarmonicSpec, ...] = ()
+    readback_noise: Percent = Field(0.05, ge=0, description="1 sigma, % of reading")
+
+    @model_validator(mode="after")
+    def _distinct_orders(self) -> "SourceSpec":
+        orders = [h.order for h in self.harmonics]
+        if len(orders) != len(set(orders)):
+            raise ValueError("harmonic orders must be distinct")
+        if self.min_frequency >= self.max_frequency:
+            raise ValueError("min_frequency must be below max_frequency")
+        return self
+
+
+class ErrorSpec(_Frozen):
+    """An error band as % of reading plus % of range (accuracy: a bound; noise: 1 sigma)."""
+
+    reading: Percent = Field(0.0, ge=0)
+    range: Percent = Field(0.0, ge=0)
+
+
+class QuantitySpecs(_Frozen):
+    voltage: ErrorSpec = ErrorSpec()
+    current: ErrorSpec = ErrorSpec()
+    power: ErrorSpec = ErrorSpec()
+
+
+class AnalyserSpec(_Frozen):
+    channels: int = Field(3, ge=1, le=8)
+    voltage_ranges: tuple[Voltage, ...] = Field(min_length=1)
+    current_ranges: tuple[Current, ...] = Field(min_length=1)
+    accuracy: QuantitySpecs = QuantitySpecs()
+    noise: QuantitySpecs = QuantitySpecs()
+    update_interval: Duration = Field(0.2, gt=0)
+    overload_factor: float = Field(1.2, ge=1.0, le=2.0)
+
+    @model_validator(mode="after")
+    def _ranges_ascending(self) -> "AnalyserSpec":
+        for name in ("voltage_ranges", "current_ranges"):
+            values = getattr(self, name)
+            if any(v <= 0 for v in values) or list(values) != sorted(set(values)):
+                raise ValueError(f"{name} must be positive and ascending")
+        return self
+
+
+class ResistanceMeterSpec(_Frozen):
+    channels: dict[Literal["hv", "lv"], int] = {"hv": 1, "lv": 2}
+    test_current: dict[Literal["hv", "lv"], Current] = {"hv": 1.0, "lv": 10.0}
+    accuracy: Percent = Field(0.02, ge=0, description="bound, % of reading")
+    noise: Percent = Field(0.005, ge=0, description="1 sigma, % of reading")
+
+    @model_validator(mode="after")
+    def _both_windings(self) -> "ResistanceMeterSpec":
+        _check_channels(self.channels, {"hv", "lv"})
+        if set(self.test_current) != {"hv", "lv"}:
+            raise ValueError("test_current needs hv and lv")
+        return self
+
+
+class ThermometerSpec(_Frozen):
+    channels: dict[Literal["ambient", "oil", "winding"], int] = {"ambient": 1, "oil": 2, "winding": 3}
+    accuracy: float = Field(0.1, ge=0, description="bound, K")
+    noise: float = Field(0.02, ge=0, description="1 sigma, K")
+
+    @model_validator(mode="after")
+    def _all_points(self) -> "ThermometerSpec":
+        _check_channels(self.channels, {"ambient", "oil", "winding"})
+        return self
+
+
+def _check_channels(channels: dict[str, int], needed: set[str]) -> None:
+    if set(channels) != needed:
+        raise ValueError(f"channels needs exactly {', '.join(sorted(needed))}")
+    if len(set(channels.values())) != len(channels) or min(channels.values()) < 1:
+        raise ValueError("channel numbers must be distinct and at least 1")
+
+
+class WiringSpec(_Frozen):
+    fed: Literal["hv", "lv"] = "lv"
+    other: Literal["open", "short"] = "open"
+
+
+class BaySpec(_Frozen):
+    ambient_temperature: Temperature = 20.0
+    initial_winding_rise: float = Field(0.0, ge=0, description="K above ambient at the start")
+    initial_oil_rise: float = Field(0.0, ge=0, description="K above ambient at the start")
+    wiring: WiringSpec = WiringSpec()
+
+
+class Scenario(_Frozen):
+    spec: int
+    kind: Literal["scenario"] = "scenario"
+    name: str = Field(min_length=1)
+    description: str = ""
+    seed: int = 1
+    transformer: TransformerSpec
+    source: SourceSpec
+    analyser: AnalyserSpec
+    resistance_meter: ResistanceMeterSpec = ResistanceMeterSpec()
+    thermometer: ThermometerSpec = ThermometerSpec()
+    bay: BaySpec = BaySpec()
+    faults: tuple[FaultSpec, ...] = ()
+
+    @model_validator(mode="after")
+    def _known_version(self) -> "Scenario":
+        if self.spec != SPEC_VERSION:
+            raise ValueError(f"spec {self.spec} is not supported; this version reads spec {SPEC_VERSION}")
+        return self
+
+    def with_faults(self, faults: tuple[FaultSpec, ...]) -> "Scenario":
+        return self.model_copy(update={"faults": self.faults + faults})
+
+
+def scenario_names() -> list[str]:
+    return sorted(p.stem for p in SIM_CONFIGS.glob("*.yaml") if _is_scenario(p))
+
+
+def _is_scenario(path: Path) -> bool:
+    try:
+        head = path.read_text(encoding="utf-8")[:400]
+    except OSError:
+        return False
+    return "kind: scenario" in head
+
+
+def load_scenario(name_or_path: str | Path) -> Scenario:
+    """A scenario by name (file stem in ``sim_configs/``) or by path; errors as ``InputError``."""
+    path = Path(name_or_path)
+    if path.suffix not in (".yaml", ".yml"):
+        path = SIM_CONFIGS / f"{name_or_path}.yaml"
+        if not path.is_file() or not _is_scenario(path):
+            known = ", ".join(scenario_names()) or "none"
+            raise InputError(f"no scenario named '{name_or_path}' (known: {known})", str(name_or_path), 0, 0)
+    return load_model(Scenario, path)

@@ -1,0 +1,148 @@
+"""What callers hand the store, checked and converted; rows turned back into plain data."""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+import json
+import math
+import operator
+import sqlite3
+from pathlib import Path
+from typing import Any, Mapping
+
+import numpy as np
+
+from harness.store.errors import StoreError
+
+QUANTITIES = ("u_rms", "u_mean", "i_rms", "p", "freq")
+SAMPLE_COLUMNS = ("id", "step_index", "t", "wall", "channel", *QUANTITIES, "setpoint", "tag")
+_SAMPLE_DTYPES: dict[str, Any] = {"id": np.int64, "step_index": np.int64, "channel": np.int64, "tag": object}
+INSTRUMENT_FIELDS = ("role", "maker", "model", "serial", "firmware", "resource", "profile", "calibration_due")
+READING_STATS = tuple(f"{q}_{s}" for q in QUANTITIES for s in ("mean", "std"))
+READING_KEYS = ("count", "stable", "channel", *READING_STATS)
+FINAL_STATUSES = ("passed", "failed", "tripped", "aborted", "unsafe")
+_NUMBER = (int, float, np.integer, np.floating)
+
+
+def real(value: Any, what: str) -> float | None:
+    """A measured value: a number or None (the instrument does not give it)."""
+    if value is None or type(value) is float:
+        return value  # type: ignore[no-any-return]
+    if isinstance(value, _NUMBER) and not isinstance(value, (bool, np.bool_)):
+        return float(value)
+    raise StoreError(f"{what} must be a number or None, got {value!r}")
+
+
+def bay_time(value: Any) -> float:
+    number = real(value, "t (bay seconds)")
+    if number is None or not math.isfinite(number):
+        raise StoreError(f"t (bay seconds) must be a finite number, got {value!r}")
+    return number
+
+
+def index(value: Any, what: str) -> int:
+    if type(value) is int and value >= 0:
+        return value
+    try:
+        number = operator.index(value)
+    except TypeError:
+        number = -1
+    if isinstance(value, (bool, np.bool_)) or number < 0:
+        raise StoreError(f"{what} must be a whole number >= 0, got {value!r}")
+    return number
+
+
+def text(value: Any, what: str, *, optional: bool = False) -> str | None:
+    if value is None and optional:
+        return None
+    if not isinstance(value, str):
+        raise StoreError(f"{what} must be text, got {value!r}")
+    return value
+
+
+def label(value: Any, what: str) -> str:
+    """Text that must say something: a kind, a name, a status."""
+    if not isinstance(value, str) or not value.strip():
+        raise StoreError(f"{what} must be non-empty text, got {value!r}")
+    return value
+
+
+def sha256(content: str | None) -> str | None:
+    return None if content is None else hashlib.sha256(content.encode("utf-8")).hexdigest()
+
+
+def utc_now() -> str:
+    return dt.datetime.now(dt.timezone.utc).isoformat(timespec="milliseconds")
+
+
+def plain(value: Any) -> Any:
+    """JSON-ready data from dicts, lists, numbers, numpy values and pydantic models."""
+    if hasattr(value, "model_dump"):
+        return plain(value.model_dump(mode="json"))
+    if hasattr(value, "to_dict") and not isinstance(value, np.ndarray):
+        return plain(value.to_dict())
+    if isinstance(value, Mapping):
+        return {str(k): plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple, np.ndarray)):
+        return [plain(v) for v in value]
+    if isinstance(value, np.generic):
+        return value.item()
+    if value is None or isinstance(value, (str, int, float)):
+        return value
+    if isinstance(value, (dt.date, dt.datetime)):
+        return value.isoformat()
+    if isinstance(value, Path):
+        return str(value)
+    raise StoreError(f"cannot keep a {type(value).__name__} in the store as JSON: {value!r}")
+
+
+def to_json(value: Any) -> str | None:
+    # NaN and infinity are kept (Python's JSON reads them back): a trip on a not-a-number
+    # reading must say so, not turn into null.
+    return None if value is None else json.dumps(plain(value), ensure_ascii=False)
+
+
+def from_json(content: str | None) -> Any:
+    return None if content is None else json.loads(content)
+
+
+def dicts(cursor: sqlite3.Cursor) -> list[dict[str, Any]]:
+    names = [d[0] for d in cursor.description]
+    return [dict(zip(names, row)) for row in cursor]
+
+
+def sample_columns(rows: list[tuple[Any, ...]]) -> dict[str, np.ndarray]:
+    """Rows of SAMPLE_COLUMNS as one array per column (NULL -> NaN in float columns)."""
+    columns = list(zip(*rows)) if rows else [() for _ in SAMPLE_COLUMNS]
+    return {name: np.array(col, dtype=_SAMPLE_DTYPES.get(name, float))
+            for name, col in zip(SAMPLE_COLUMNS, columns)}
+
+
+def instrument_row(run_id: str, item: Any) -> tuple[Any, ...]:
+    if not isinstance(item, Mapping):
+        raise StoreError(f"an instrument must be a mapping of {', '.join(INSTRUMENT_FIELDS)}; got {item!r}")
+    unknown = sorted(set(item) - set(INSTRUMENT_FIELDS))
+    if unknown:
+        raise StoreError(f"unknown instrument field(s) {', '.join(map(str, unknown))}; "
+                         f"known: {', '.join(INSTRUMENT_FIELDS)}")
+    label(item.get("role"), "instrument role")
+    values = [item.get(name) for name in INSTRUMENT_FIELDS]
+    return (run_id, *(None if v is None else str(v) for v in values))
+
+
+def reading_values(stats: Any) -> dict[str, Any]:
+    """The columns of a reading from ``stats``: count, stable, optional channel, <quantity>_mean/_std."""
+    if not isinstance(stats, Mapping):
+        raise StoreError(f"reading stats must be a mapping, got {stats!r}")
+    unknown = sorted(set(stats) - set(READING_KEYS))
+    if unknown:
+        raise StoreError(f"unknown reading stat(s) {', '.join(map(str, unknown))}; known: {', '.join(READING_KEYS)}")
+    count = index(stats.get("count"), "reading count")
+    stable = stats.get("stable")
+    if count < 1 or not isinstance(stable, (bool, np.bool_)):
+        raise StoreError(f"a reading needs count >= 1 and stable true/false, got {stats.get('count')!r}, {stable!r}")
+    channel = stats.get("channel")
+    values = {name: real(stats.get(name), f"reading {name}") for name in READING_STATS}
+    return {"count": count, "stable": int(bool(stable)),
+            "channel": None if channel is None else index(channel, "reading channel"), **values}

@@ -52,10 +52,13 @@ class PowerAnalyser(ScpiInstrument):
         self._by_channel = fmt.layout == "by_channel"
         self._outer = fmt.channel_separator if self._by_channel else fmt.field_separator
         self._inner = fmt.field_separator if self._by_channel else fmt.channel_separator
-        self._fields = fmt.fields
-        self._order = tuple(fmt.fields.index(q) for q in QUANTITIES)
-        self._n_outer = len(self.channels) if self._by_channel else len(fmt.fields)
-        self._n_inner = len(fmt.fields) if self._by_channel else len(self.channels)
+        n_fields, n_channels = len(fmt.fields), len(self.channels)
+        self._n_outer = n_channels if self._by_channel else n_fields
+        self._n_inner = n_fields if self._by_channel else n_channels
+        # Token index of each value, channel after channel in QUANTITIES order.
+        self._used = [c * n_fields + fmt.fields.index(q) if self._by_channel
+                      else fmt.fields.index(q) * n_channels + c
+                      for c in range(n_channels) for q in QUANTITIES]
 
     # --- the reading
 
@@ -71,31 +74,34 @@ class PowerAnalyser(ScpiInstrument):
     def parse_snapshot(self, reply: str) -> tuple[ChannelReading, ...]:
         """Readings per channel from a snapshot reply; garbled or special values raise."""
         groups = reply.split(self._outer)
+        if len(groups) != self._n_outer or "_" in reply:  # float() would take "1_0" as 10
+            raise self._garbled(reply, f"expected {self._n_outer} group(s) split by '{self._outer}'")
+        tokens = groups if self._n_inner == 1 else self._split_groups(groups, reply)
         try:
-            if len(groups) != self._n_outer or "_" in reply:
-                raise ValueError
-            table = [[float(x) for x in g.split(self._inner)] for g in groups]
+            values = [float(tokens[i]) for i in self._used]
         except ValueError:
-            table = self._slow_table(groups, reply)
-        rows = table if self._by_channel else list(zip(*table))
-        if len(rows) != len(self.channels) or any(len(r) != len(self._fields) for r in rows):
-            raise self._garbled(reply, "the reply does not have one value per field and channel")
-        a, b, c, d, e = self._order
-        out = []
-        for index, row in enumerate(rows):
-            for v in row:
-                if not -_LIMIT < v < _LIMIT:
-                    self._over_range(row, index)
-            out.append(ChannelReading(row[a], row[b], row[c], row[d], row[e]))
-        return tuple(out)
+            values = self._strict_values(tokens, reply)
+        for v in values:
+            if not -_LIMIT < v < _LIMIT:
+                self._over_range(values)
+        if len(values) == 5:
+            return (ChannelReading(*values),)
+        return tuple(ChannelReading(*values[k:k + 5]) for k in range(0, len(values), 5))
 
-    def _slow_table(self, groups: list[str], reply: str) -> list[list[float]]:
-        """The strict parser, for replies plain ``float`` refuses (``NINF``, ``#H..``) or garbage."""
-        if len(groups) != self._n_outer:
-            raise self._garbled(reply, f"expected {self._n_outer} group(s) split by '{self._outer}', "
-                                       f"got {len(groups)}")
+    def _split_groups(self, groups: list[str], reply: str) -> list[str]:
+        tokens: list[str] = []
+        for group in groups:
+            parts = group.split(self._inner)
+            if len(parts) != self._n_inner:
+                raise self._garbled(reply, f"expected {self._n_inner} value(s) split by '{self._inner}' "
+                                           f"in '{group}'")
+            tokens.extend(parts)
+        return tokens
+
+    def _strict_values(self, tokens: list[str], reply: str) -> list[float]:
+        """The strict parser, for what plain ``float`` refuses: ``NINF``, ``#H..``, or garbage."""
         try:
-            return [[parse_number(x) for x in g.split(self._inner)] for g in groups]
+            return [parse_number(tokens[i]) for i in self._used]
         except ValueError as exc:
             raise self._garbled(reply, str(exc)) from None
 
@@ -103,13 +109,10 @@ class PowerAnalyser(ScpiInstrument):
         shown = reply if len(reply) <= 200 else reply[:200] + "..."
         return ProtocolError(f"snapshot reply unreadable ({why}): '{shown}'", self.name, self.snapshot_command)
 
-    def _over_range(self, row: tuple[float, ...] | list[float], index: int) -> None:
-        channel = self.channels[index]
-        for field, value in zip(self._fields, row):
-            if field != "skip":
-                check_reading(value, f"{field} of channel {channel}", self.name, self.snapshot_command)
-
-    # --- configuration
+    def _over_range(self, values: list[float]) -> None:
+        for k, value in enumerate(values):
+            channel, quantity = self.channels[k // 5], QUANTITIES[k % 5]
+            check_reading(value, f"{quantity} of channel {channel}", self.name, self.snapshot_command)
 
     def set_ranges(self, voltage: float | None = None, current: float | None = None) -> None:
         """Fixed ranges (V, A): the instrument picks the smallest range that holds the value."""

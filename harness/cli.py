@@ -127,7 +127,7 @@ def _check_faults(options: Any) -> None:
 
 
 def cmd_check(args: argparse.Namespace) -> int:
-    from harness.runner.run import RunOptions, prepare
+    from harness.runner.prepare import RunOptions, prepare
     prepared = prepare(RunOptions(args.sequence, args.station))
     steps = len(prepared.sequence.steps)
     print(f"{args.sequence}: valid against {prepared.station_file} ({steps} steps); nothing was energised")

@@ -25,7 +25,7 @@ instruments:
     profile: generic-thermometer
     timeout: 0.5 s
     channels: {{ambient: 1, oil: 2, winding: 3}}
-  bay_control: {{resource: "{bay_control}", profile: sim-bay-control, timeout: 0.5 s}}
+  bay_control: {{resource: "{bay_control}", profile: generic-bay-control, timeout: 0.5 s}}
 measurement: {{vt_ratio: 1, ct_ratio: 1}}
 limits:
   voltage: 1200 V

@@ -105,7 +105,7 @@ class Wait(Step):
 
 
 class Off(Step):
-    kind: Literal["off"]
+    kind: Literal["switch-off"]
 
 
 class Wiring(BaseModel):

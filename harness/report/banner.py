@@ -62,7 +62,7 @@ def _last_event_time(bundle: ReportBundle) -> Any:
 
 
 def _plain_time(when: Any) -> str:
-    return str(when).replace("T", " ")
+    return fmt.when_text(when)
 
 
 def _value(trip: dict[str, Any] | None) -> str | None:

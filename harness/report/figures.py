@@ -96,7 +96,7 @@ def efficiency_figure(points: Sequence[Mapping[str, Any]], maximum: Mapping[str,
         fig = new_figure(7.0, 3.6)
         ax = fig.add_subplot()
         for index, (pf, curve) in enumerate(curves):
-            ax.plot([n * 100 for n, _ in curve], [e for _, e in curve], label=f"power factor {fmt.num(pf, 3)}", **_style(index))
+            ax.plot([n * 100 for n, _ in curve], [e for _, e in curve], label=f"power factor {fmt.fixed(pf, 2)}", **_style(index))
         _mark_maximum(ax, maximum)
         ax.set_xlabel("load (% of rated power)")
         ax.set_ylabel("efficiency (%)")
@@ -178,18 +178,20 @@ def _draw_limit(ax: Axes, limit: Any, unit: str) -> None:
     if not fmt.is_number(limit):
         return
     ax.axhline(limit, color=LIMIT_COLOUR, linestyle="--", linewidth=1.1)
-    ax.annotate(f"limit {fmt.num(limit)} {unit}", (1.0, limit), xycoords=("axes fraction", "data"),
-                xytext=(-4, -10), textcoords="offset points", ha="right", fontsize=7.5, color=LIMIT_COLOUR)
+    # Upper left is free: a ramp starts at zero there.
+    ax.annotate(f"limit {fmt.num(limit)} {unit}", (0.0, limit), xycoords=("axes fraction", "data"),
+                xytext=(4, 2), textcoords="offset points", ha="left", va="bottom", fontsize=7.5, color=LIMIT_COLOUR)
     low, high = ax.get_ylim()
-    ax.set_ylim(min(low, 0), max(high, limit * 1.08))
+    # Room above the limit for its label, and the zero line in view: the ramp starts there.
+    ax.set_ylim(min(low, 0), max(high, limit * 1.22))
 
 
 def _draw_trip(ax: Axes, trace: Mapping[str, Any], trip: Mapping[str, Any] | None) -> None:
     if not trip or trip.get("step") != trace.get("step") or not fmt.is_number(trip.get("t_s")):
         return
     ax.axvline(trip["t_s"], color="#000000", linewidth=1.2, linestyle="-.")
-    ax.annotate("trip", (trip["t_s"], 1.0), xycoords=("data", "axes fraction"), xytext=(3, -10),
-                textcoords="offset points", fontsize=7.5)
+    ax.annotate("trip", (trip["t_s"], 1.0), xycoords=("data", "axes fraction"), xytext=(-3, -10),
+                textcoords="offset points", ha="right", fontsize=7.5, fontweight="bold")
 
 
 # --------------------------------------------------------------------------- equivalent circuit
@@ -201,11 +203,11 @@ def circuit_figure(circuit: Mapping[str, Any], voltages: Mapping[str, Any]) -> s
     if not sides:
         return None
     with matplotlib.rc_context(_RC):
-        fig = new_figure(3.6 * len(sides), 2.3)
+        fig = new_figure(6.4, 2.35 * len(sides))
         for i, side in enumerate(sides):
-            ax = fig.add_subplot(1, len(sides), i + 1)
+            ax = fig.add_subplot(len(sides), 1, i + 1)
             _draw_circuit(ax, circuit[side])
-            ax.set_title(_circuit_title(side, voltages.get(side)), fontsize=9)
+            ax.set_title(_circuit_title(side, voltages.get(side)), fontsize=9.5, loc="left")
     return to_svg(fig, "fig-circuit")
 
 
@@ -217,7 +219,7 @@ def _circuit_title(side: str, voltage: Any) -> str:
 def _draw_circuit(ax: Axes, values: Mapping[str, Any]) -> None:
     ax.set_axis_off()
     ax.set_xlim(-0.4, 10.4)
-    ax.set_ylim(-0.9, 3.0)
+    ax.set_ylim(-0.8, 3.4)
     ax.set_aspect("equal")
     wire = {"color": "#000000", "linewidth": 1.2}
     ax.plot([0, 1.6, 3.2, 4.2], [2, 2, 2, 2], **wire)
@@ -238,13 +240,13 @@ def _draw_circuit(ax: Axes, values: Mapping[str, Any]) -> None:
 
 
 def _circuit_labels(ax: Axes, values: Mapping[str, Any]) -> None:
-    text = {"fontsize": 8}
+    text = {"fontsize": 8.5}
     ax.text(1.25, 1.0, f"Rc\n{fmt.eng(values.get('Rc_ohm'), 'Ω')}", ha="right", va="center", **text)
     ax.text(3.55, 1.0, f"Xm\n{fmt.eng(values.get('Xm_ohm'), 'Ω')}", ha="left", va="center", **text)
-    ax.text(5.3, 2.35, f"Req {fmt.eng(values.get('Req_ohm'), 'Ω')}", ha="center", va="bottom", **text)
-    ax.text(7.7, 2.45, f"Xeq {fmt.eng(values.get('Xeq_ohm'), 'Ω')}", ha="center", va="bottom", **text)
-    ax.text(0, -0.55, "supply side", ha="left", va="center", fontsize=7)
-    ax.text(10, -0.55, "load side", ha="right", va="center", fontsize=7)
+    ax.text(5.3, 2.4, f"Req\n{fmt.eng(values.get('Req_ohm'), 'Ω')}", ha="center", va="bottom", **text)
+    ax.text(7.7, 2.4, f"Xeq\n{fmt.eng(values.get('Xeq_ohm'), 'Ω')}", ha="center", va="bottom", **text)
+    ax.text(0, -0.5, "supply terminals", ha="left", va="center", fontsize=7.5)
+    ax.text(10, -0.5, "load terminals", ha="right", va="center", fontsize=7.5)
 
 
 def _frame(a: tuple[float, float], b: tuple[float, float]) -> tuple[float, tuple[float, float], tuple[float, float]]:

@@ -17,16 +17,28 @@ def is_number(value: Any) -> bool:
 
 
 def num(value: Any, digits: int = SIGNIFICANT) -> str:
-    """``value`` with ``digits`` significant digits in fixed notation; a dash when not a number."""
+    """``value`` rounded to ``digits`` significant digits, trailing zeros dropped; a dash when absent.
+
+    Integers (counts, step numbers) are written as they are.
+    """
     if not is_number(value):
         return DASH if value is None else str(value)
-    if value == 0:
-        return "0"
+    if isinstance(value, int) or value == 0:
+        return str(int(value))
     magnitude = math.floor(math.log10(abs(value)))
     if magnitude >= 7 or magnitude < -5:
         return f"{value:.{digits - 1}e}"
     decimals = max(0, digits - 1 - magnitude)
-    return f"{round(value, decimals):.{decimals}f}"
+    return _trim(f"{round(value, decimals):.{decimals}f}")
+
+
+def _trim(text: str) -> str:
+    return text.rstrip("0").rstrip(".") if "." in text else text
+
+
+def fixed(value: Any, decimals: int) -> str:
+    """A fixed number of decimals, for columns that read better aligned (power factor, time)."""
+    return f"{value:.{decimals}f}" if is_number(value) else DASH
 
 
 def eng(value: Any, unit: str, digits: int = SIGNIFICANT) -> str:
@@ -64,3 +76,17 @@ def limit_text(limit: Any, unit: str) -> str:
     if isinstance(limit, dict):
         return limit_text([limit.get("low"), limit.get("high")], unit)
     return with_unit(limit, unit) if is_number(limit) else (DASH if limit is None else str(limit))
+
+
+def when_text(iso: Any) -> str:
+    """'2026-11-18T09:12:04.25+00:00' -> '2026-11-18 09:12:04 UTC'; anything else as given."""
+    if not isinstance(iso, str) or "T" not in iso:
+        return DASH if iso in (None, "") else str(iso)
+    date, _, rest = iso.partition("T")
+    for sign in ("+", "-", "Z"):
+        if sign in rest:
+            clock, _, zone = rest.partition(sign)
+            clock = clock.split(".")[0]  # whole seconds: the event log orders by t_s anyway
+            utc = sign == "Z" or zone in ("00:00", "0000")
+            return f"{date} {clock} {'UTC' if utc else sign + zone}"
+    return f"{date} {rest.split('.')[0]}"

@@ -41,24 +41,12 @@ def _environment() -> jinja2.Environment:
         autoescape=True, undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True,
     )
     env.filters["num"] = fmt.num
-    env.filters["when"] = _when
+    env.filters["when"] = fmt.when_text
     return env
 
 
 def stylesheet() -> str:
     return resources.files("harness.report").joinpath("templates", "report.css").read_text(encoding="utf-8")
-
-
-def _when(iso: Any) -> str:
-    """'2026-11-18T09:12:04+00:00' -> '2026-11-18 09:12:04 +00:00'; anything else as given."""
-    if not isinstance(iso, str) or "T" not in iso:
-        return fmt.DASH if iso in (None, "") else str(iso)
-    date, _, rest = iso.partition("T")
-    for sign in ("+", "-", "Z"):
-        if sign in rest:
-            clock, _, zone = rest.partition(sign)
-            return f"{date} {clock} {'UTC' if sign == 'Z' else sign + zone}"
-    return f"{date} {rest}"
 
 
 def context(bundle: ReportBundle) -> dict[str, Any]:
@@ -93,7 +81,7 @@ def _title(bundle: ReportBundle) -> str:
 def _run_fields(run: dict[str, Any]) -> dict[str, str]:
     keys = ("run_id", "lab", "station", "operator", "software_version", "sequence_name", "sequence_hash", "station_hash")
     fields = {k: fmt.DASH if run.get(k) in (None, "") else str(run[k]) for k in keys}
-    fields.update(started=_when(run.get("started")), finished=_when(run.get("finished")),
+    fields.update(started=fmt.when_text(run.get("started")), finished=fmt.when_text(run.get("finished")),
                   exit_code=fmt.DASH if run.get("exit_code") is None else str(run["exit_code"]))
     return fields
 
@@ -150,7 +138,7 @@ def instrument_rows(instruments: list[dict[str, Any]]) -> list[dict[str, str]]:
 
 
 def _event_rows(events: list[dict[str, Any]]) -> list[tuple[str, str, str, str]]:
-    return [(fmt.num(e.get("t_s"), 6) if e.get("t_s") is not None else fmt.DASH, _when(e.get("time")),
+    return [(fmt.fixed(e.get("t_s"), 1), fmt.when_text(e.get("time")),
              _text(e.get("kind")), _text(e.get("text"))) for e in events]
 
 

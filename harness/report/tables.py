@@ -31,6 +31,8 @@ class MainRow:
     limit: str
     verdict: str
     verdict_class: str
+    checked: int | None = None
+    """Which value column (0 measured, 1 corrected, 2 at reference) was compared with the guarantee."""
 
 
 @dataclass(frozen=True)
@@ -42,20 +44,21 @@ class _RowSpec:
     corrected: str | None
     at_reference: str | None
     check_names: tuple[str, ...]
+    checked: int
 
 
 # Which results keys fill which column. "Corrected" is the waveform correction for no-load loss
 # and the scaling to rated current for load loss and impedance.
 _ROWS = (
     _RowSpec("No-load loss", "W", "no_load", "loss_measured_W", "loss_W", "loss_ref_W",
-             ("no_load_loss", "no_load_loss_W")),
-    _RowSpec("No-load current", "%", "no_load", "current_measured_pct", "current_pct", None,
-             ("no_load_current", "no_load_current_pct")),
+             ("no_load_loss", "no_load_loss_W"), 1),
+    _RowSpec("No-load current", "%", "no_load", "current_pct", None, None,
+             ("no_load_current", "no_load_current_pct"), 0),
     _RowSpec("Load loss", "W", "load", "loss_measured_W", "loss_W", "loss_ref_W",
-             ("load_loss", "load_loss_W")),
+             ("load_loss", "load_loss_W", "load_loss_ref_W"), 2),
     _RowSpec("Short-circuit impedance", "%", "load", "impedance_measured_pct", "impedance_pct",
-             "impedance_ref_pct", ("impedance", "impedance_pct", "short_circuit_impedance")),
-    _RowSpec("Total losses", "W", "total", None, "loss_W", "loss_ref_W", ("total_loss", "total_loss_W", "total_losses")),
+             "impedance_ref_pct", ("impedance", "impedance_pct", "short_circuit_impedance"), 2),
+    _RowSpec("Total losses", "W", "total", None, "loss_W", "loss_ref_W", ("total_loss", "total_loss_W", "total_losses"), 2),
 )
 
 
@@ -66,14 +69,26 @@ def unit_of(key: str) -> str:
     return ""
 
 
+# Words for the stems whose plain reading would be cryptic.
+_LABELS = {
+    "loss_measured": "loss, measured", "loss": "loss, corrected", "loss_ref": "loss at reference temperature",
+    "impedance_measured": "impedance, measured",
+    "impedance": "impedance at rated current", "impedance_ref": "impedance at reference temperature",
+    "resistance": "resistance (at reference temperature)", "reactance": "reactance",
+    "temperature": "winding temperature during the test", "test_current": "test current",
+    "winding": "energised winding", "waveform_deviation": "waveform deviation (mean-value vs rms)",
+    "load_loss_ref": "load loss at reference temperature",
+}
+
+
 def label_of(key: str) -> str:
-    """'loss_measured_W' -> 'Loss measured'."""
+    """'loss_ref_W' -> 'Loss at reference temperature'; unknown keys read as words."""
     stem = key
     for suffix, _ in _SUFFIX_UNITS:
         if key.endswith(suffix):
             stem = key[: -len(suffix)]
             break
-    words = stem.replace("_", " ").strip()
+    words = _LABELS.get(stem, stem.replace("_", " ").strip())
     return words[:1].upper() + words[1:]
 
 
@@ -81,8 +96,13 @@ def _checks_by_name(results: Mapping[str, Any]) -> dict[str, dict[str, Any]]:
     return {str(c.get("quantity")): dict(c) for c in results.get("checks", []) or [] if isinstance(c, Mapping)}
 
 
-def _cell(section: Mapping[str, Any], key: str | None, unit: str) -> str:
-    return fmt.DASH if key is None else fmt.num(section.get(key))
+def _cells(spec: _RowSpec, section: Mapping[str, Any], check: Mapping[str, Any]) -> list[str]:
+    """The three value cells; the compared one falls back to the check's value when the section lacks it."""
+    keys = (spec.measured, spec.corrected, spec.at_reference)
+    cells = [fmt.DASH if key is None else fmt.num(section.get(key)) for key in keys]
+    if cells[spec.checked] == fmt.DASH and fmt.is_number(check.get("value")):
+        cells[spec.checked] = fmt.num(check["value"])
+    return cells
 
 
 def _find_check(checks: dict[str, dict[str, Any]], names: tuple[str, ...]) -> dict[str, Any] | None:
@@ -97,11 +117,10 @@ def _main_row(spec: _RowSpec, results: Mapping[str, Any], checks: dict[str, dict
         return None
     check = check or {}
     return MainRow(
-        spec.label, spec.unit,
-        _cell(section, spec.measured, spec.unit), _cell(section, spec.corrected, spec.unit),
-        _cell(section, spec.at_reference, spec.unit),
+        spec.label, spec.unit, *_cells(spec, section, check),
         fmt.num(check.get("guaranteed")), fmt.limit_text(check.get("limit"), ""),
         fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")),
+        spec.checked if check else None,
     )
 
 
@@ -110,7 +129,7 @@ def _extra_row(name: str, check: Mapping[str, Any]) -> MainRow:
     return MainRow(
         label_of(name), unit_of(name), fmt.DASH, fmt.num(check.get("value")), fmt.DASH,
         fmt.num(check.get("guaranteed")), fmt.limit_text(check.get("limit"), ""),
-        fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")),
+        fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")), 1,
     )
 
 
@@ -131,10 +150,10 @@ def _is_scalar(value: Any) -> bool:
     return value is None or isinstance(value, (int, float, str, bool))
 
 
-def _scalar_text(value: Any) -> str:
+def _scalar_text(value: Any, digits: int = fmt.SIGNIFICANT) -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
-    return fmt.num(value)
+    return fmt.num(value, digits)
 
 
 def efficiency_table(points: list[Mapping[str, Any]]) -> tuple[list[str], list[tuple[str, list[str]]]]:
@@ -142,8 +161,8 @@ def efficiency_table(points: list[Mapping[str, Any]]) -> tuple[list[str], list[t
     pfs = sorted({p.get("power_factor") for p in points if fmt.is_number(p.get("power_factor"))}, reverse=True)
     loads = sorted({p.get("load_pu") for p in points if fmt.is_number(p.get("load_pu"))})
     value = {(p.get("load_pu"), p.get("power_factor")): p.get("efficiency_pct") for p in points}
-    rows = [(fmt.num(n * 100, 3), [fmt.num(value.get((n, pf)), 5) for pf in pfs]) for n in loads]
-    return [fmt.num(pf, 3) for pf in pfs], rows
+    rows = [(fmt.num(n * 100, 3), [fmt.fixed(value.get((n, pf)), 3) for pf in pfs]) for n in loads]
+    return [fmt.fixed(pf, 2) for pf in pfs], rows
 
 
 def regulation_rows(points: list[Mapping[str, Any]]) -> list[tuple[str, str, str, str, str]]:
@@ -153,7 +172,7 @@ def regulation_rows(points: list[Mapping[str, Any]]) -> list[tuple[str, str, str
         return {True: "lagging", False: "leading"}.get(p.get("lagging"), fmt.DASH)
 
     return [
-        (fmt.num(_pct(p.get("load_pu")), 3), fmt.num(p.get("power_factor"), 3), sense(p),
+        (fmt.num(_pct(p.get("load_pu")), 3), fmt.fixed(p.get("power_factor"), 2), sense(p),
          fmt.num(p.get("regulation_pct")), fmt.num(p.get("voltage_drop_pct")))
         for p in points
     ]
@@ -203,7 +222,7 @@ def _uncertainty_block(quantity: str, u: Mapping[str, Any]) -> dict[str, Any]:
         "quantity": label_of(quantity), "unit": unit_of(quantity),
         "standard": fmt.num(u.get("standard"), 3), "expanded": fmt.num(u.get("expanded"), 3),
         "k": fmt.num(u.get("k"), 3), "columns": [label_of(c) + _unit_suffix(c) for c in columns],
-        "budget": [(str(b.get("source", fmt.DASH)), [_scalar_text(b.get(c)) for c in columns]) for b in budget],
+        "budget": [(str(b.get("source", fmt.DASH)), [_scalar_text(b.get(c), 3) for c in columns]) for b in budget],
     }
 
 

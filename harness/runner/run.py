@@ -17,15 +17,11 @@ from typing import Any, Iterator
 from drivers.errors import InstrumentError
 from harness import __version__
 from harness.common.clock import Clock
-from harness.common.errors import InputError
-from harness.common.yamlio import load_file, validate
-from harness.config.checks import check
-from harness.config.sequence import Sequence
-from harness.config.sim_station import SIM_STATION_FILE, sim_station
-from harness.config.station import Station
+from harness.config.sim_station import sim_station
 from harness.runner.bay import Bay, open_bay
 from harness.runner.context import Run
 from harness.runner.evaluation import evaluate_run
+from harness.runner.prepare import Prepared, RunOptions, prepare
 from harness.runner.progress import Progress
 from harness.runner.sequencer import run_steps
 from harness.runner.steps.off import NotConfirmed
@@ -38,67 +34,6 @@ DEFAULT_SIM_TIME_SCALE = 20.0
 
 class Terminated(Exception):
     """SIGTERM arrived: handled like Ctrl-C."""
-
-
-@dataclass
-class RunOptions:
-    sequence: Path
-    station: Path | None = None
-    scenario: str = "default"
-    faults: tuple[str, ...] = ()
-    time_scale: float | None = None
-    yes: bool = False
-    quiet: bool = False
-
-
-@dataclass
-class RunOutcome:
-    run_id: str
-    status: str
-    exit_code: int
-    trip: dict[str, Any] | None
-    results: dict[str, Any] | None
-    report: str | None
-    database: str
-    folder: str
-    safe_state: dict[str, Any] | None
-    warnings: list[str] = field(default_factory=list)
-    samples: int = 0
-
-    def as_dict(self) -> dict[str, Any]:
-        return dict(self.__dict__)
-
-
-@dataclass
-class Prepared:
-    sequence: Sequence
-    sequence_text: str
-    station: Station
-    station_text: str
-    station_file: str
-
-
-def prepare(options: RunOptions) -> Prepared:
-    """Load and cross-check sequence and station; nothing is touched on the bay."""
-    loaded = load_file(options.sequence)
-    sequence = validate(Sequence, loaded)
-    if options.station is None:
-        station, station_text = sim_station()
-        station_file = SIM_STATION_FILE
-    else:
-        st_loaded = load_file(options.station)
-        station, station_text, station_file = validate(Station, st_loaded), _text(options.station), str(options.station)
-    check(sequence, station, loaded)
-    if options.yes and not station.simulated:
-        raise InputError("--yes answers prompts only on the simulated bay; a real bay needs its operator",
-                         station_file, 1, 1)
-    if options.time_scale not in (None, 1.0) and not station.simulated:
-        raise InputError("--time-scale is for the simulated bay only; a real bay runs in real time", station_file, 1, 1)
-    return Prepared(sequence, _text(options.sequence), station, station_text, station_file)
-
-
-def _text(path: Path) -> str:
-    return Path(path).read_text(encoding="utf-8")
 
 
 @contextlib.contextmanager
@@ -134,6 +69,24 @@ def signals_held() -> Iterator[list[int]]:
     finally:
         for s, h in handlers.items():
             signal.signal(s, h)
+
+
+@dataclass
+class RunOutcome:
+    run_id: str
+    status: str
+    exit_code: int
+    trip: dict[str, Any] | None
+    results: dict[str, Any] | None
+    report: str | None
+    database: str
+    folder: str
+    safe_state: dict[str, Any] | None
+    warnings: list[str] = field(default_factory=list)
+    samples: int = 0
+
+    def as_dict(self) -> dict[str, Any]:
+        return dict(self.__dict__)
 
 
 def execute(options: RunOptions, store: Any) -> RunOutcome:

@@ -20,6 +20,6 @@ def switch_off(run: Run, why: str) -> None:
                            run.station.safe_state.deenergised_voltage, run.step_title, run.clock.now())
 
 
-@register("off")
+@register("switch-off")
 def execute(step, run: Run) -> None:
     switch_off(run, step.title())

@@ -1,0 +1,59 @@
+"""Before anything is energised: load sequence and station, cross-check them, refuse what
+only the simulated bay may do."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+from harness.common.errors import InputError
+from harness.common.yamlio import load_file, validate
+from harness.config.checks import check
+from harness.config.sequence import Sequence
+from harness.config.sim_station import SIM_STATION_FILE, sim_station
+from harness.config.station import Station
+
+
+@dataclass
+class RunOptions:
+    sequence: Path
+    station: Path | None = None
+    scenario: str = "default"
+    faults: tuple[str, ...] = ()
+    time_scale: float | None = None
+    yes: bool = False
+    quiet: bool = False
+
+
+@dataclass
+class Prepared:
+    sequence: Sequence
+    sequence_text: str
+    station: Station
+    station_text: str
+    station_file: str
+
+
+def prepare(options: RunOptions) -> Prepared:
+    """Load and cross-check sequence and station; nothing is touched on the bay."""
+    loaded = load_file(options.sequence)
+    sequence = validate(Sequence, loaded)
+    if options.station is None:
+        station, station_text = sim_station()
+        station_file = SIM_STATION_FILE
+    else:
+        st_loaded = load_file(options.station)
+        station, station_text, station_file = validate(Station, st_loaded), _text(options.station), str(options.station)
+    check(sequence, station, loaded)
+    if options.yes and not station.simulated:
+        raise InputError("--yes answers prompts only on the simulated bay; a real bay needs its operator",
+                         station_file, 1, 1)
+    if options.time_scale not in (None, 1.0) and not station.simulated:
+        raise InputError("--time-scale is for the simulated bay only; a real bay runs in real time", station_file, 1, 1)
+    return Prepared(sequence, _text(options.sequence), station, station_text, station_file)
+
+
+def _text(path: Path) -> str:
+    return Path(path).read_text(encoding="utf-8")
+
+

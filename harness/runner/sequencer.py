@@ -18,9 +18,16 @@ def run_steps(steps: list[Any], run: Run, limits=None) -> None:
         run.use_limits(outer.tightened(step.limits), title)
         run.store.begin_step(run.run_id, index, step.kind, title)
         run.progress.step(index, step.kind, title)
+        limits = run.supervisor.limits
+        run.store.add_event(run.run_id, run.clock.now(), "step-start", f"{step.kind}: {title}",
+                            {"step": index, "kind": step.kind, "limits": {
+                                "voltage_V": limits.voltage, "current_A": limits.current, "power_W": limits.power,
+                                "energised_time_s": limits.energised_time,
+                                "winding_temperature_C": limits.winding_temperature}})
         status = "failed"
         try:
             execute(step, run)
             status = "done"
         finally:
             run.store.end_step(run.run_id, index, status)
+            run.store.add_event(run.run_id, run.clock.now(), "step-end", f"{title}: {status}", {"step": index})

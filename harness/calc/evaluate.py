@@ -1,0 +1,145 @@
+"""Evaluation of a test record: compose the small pure steps into the results.
+
+Each part is skipped, with a warning, when the record lacks what it needs (a run that tripped
+after the no-load test still gets its no-load results).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+
+from harness.calc import circuit, performance
+from harness.calc.basis import Basis, basis_of
+from harness.calc.load import LoadResult, evaluate_load
+from harness.calc.no_load import NoLoadResult, evaluate_no_load, shunt, waveform_settings
+from harness.calc.record import Record
+from harness.calc.results import Branches, EfficiencyRow, MaxEfficiency, RegulationRow, Results
+from harness.calc.tolerances import guarantee_checks
+
+DEFAULT_LOADS = (0.25, 0.5, 0.75, 1.0, 1.25)
+DEFAULT_POWER_FACTORS = (1.0, 0.8)
+DEFAULT_REGULATION_LOADS = (1.0,)
+MAX_LOAD_PU = 3.0
+
+
+def evaluate(record: Record, loads: Sequence[float] | None = None,
+             power_factors: Sequence[float] | None = None) -> Results:
+    """Evaluate ``record``; ``loads`` (pu) and ``power_factors`` override the default tables.
+
+    Raises ``ValueError`` with a sentence for an unusable load or power factor.
+    """
+    eff_loads = checked_loads(loads) if loads is not None else DEFAULT_LOADS
+    reg_loads = eff_loads if loads is not None else DEFAULT_REGULATION_LOADS
+    pfs = checked_power_factors(power_factors) if power_factors is not None else DEFAULT_POWER_FACTORS
+    basis = basis_of(record)
+    nl, ld, warnings = _tests(record, basis)
+    p0 = nl.loss_W if nl is not None else None
+    pk = ld.performance_loss_W if ld is not None else None
+    checks = guarantee_checks(p0, pk, ld and ld.performance_impedance_pct, nl and nl.current_pct,
+                              record.guarantees, record.tolerances)
+    return Results(
+        rated_current_A={w: basis.rated_current(w) for w in ("hv", "lv")},
+        no_load=nl, load=ld, equivalent_circuit=equivalent_circuit(record, nl, ld, basis),
+        efficiency=efficiency_table(eff_loads, pfs, basis, p0, pk),
+        max_efficiency=max_efficiency(record, basis, p0, pk),
+        regulation=regulation_table(reg_loads, pfs, ld),
+        checks=tuple(checks),
+        warnings=tuple(warnings + skipped_guarantee_warnings(record)),
+    )
+
+
+def checked_loads(loads: Sequence[float]) -> tuple[float, ...]:
+    values = tuple(float(n) for n in loads)
+    if not values or not all(math.isfinite(n) and 0 < n <= MAX_LOAD_PU for n in values):
+        raise ValueError(f"loads must be per-unit values above 0 and up to {MAX_LOAD_PU:g}, got {list(loads)}")
+    return values
+
+
+def checked_power_factors(pfs: Sequence[float]) -> tuple[float, ...]:
+    values = tuple(float(pf) for pf in pfs)
+    if not values or not all(math.isfinite(pf) and 0 < pf <= 1 for pf in values):
+        raise ValueError(f"power factors must lie above 0 and up to 1, got {list(pfs)}")
+    return values
+
+
+def _tests(record: Record, basis: Basis) -> tuple[NoLoadResult | None, LoadResult | None, list[str]]:
+    warnings: list[str] = []
+    nl = ld = None
+    if record.no_load is not None:
+        nl, w = evaluate_no_load(record.no_load, basis, waveform_settings(record))
+        warnings += w
+    else:
+        warnings.append("The record has no no-load test: no-load results, efficiency and loss totals are skipped.")
+    if record.load is not None:
+        ld, w = evaluate_load(record.load, record.winding_resistance, basis)
+        warnings += w + _material_warning(record, ld)
+    else:
+        warnings.append("The record has no load-loss test: load results, efficiency and regulation are skipped.")
+    return nl, ld, warnings
+
+
+def _material_warning(record: Record, ld: LoadResult) -> list[str]:
+    if ld.loss_ref_W is not None and record.transformer.winding_material is None:
+        return ["The record does not give the winding material: copper assumed for the temperature correction."]
+    return []
+
+
+def equivalent_circuit(record: Record, nl: NoLoadResult | None, ld: LoadResult | None,
+                       basis: Basis) -> dict[str, Branches]:
+    rc = xm = None
+    if nl is not None:
+        rc, xm = shunt(record.no_load, nl.loss_waveform_corrected_W, basis)
+    r_pu = x_pu = t_req = None
+    if ld is not None:
+        r_pu, x_pu = ld.performance_resistance_pct / 100, ld.reactance_pct / 100
+        t_req = ld.reference_temperature_C if ld.resistance_ref_pct is not None else ld.test_temperature_C
+    side = nl.winding if nl is not None else "hv"
+    return {w: Branches(circuit.refer(rc, basis, side, w), circuit.refer(xm, basis, side, w),
+                        circuit.from_per_unit(r_pu, basis, w), circuit.from_per_unit(x_pu, basis, w), t_req)
+            for w in ("hv", "lv")}
+
+
+def efficiency_table(loads, pfs, basis: Basis, p0: float | None, pk: float | None) -> tuple[EfficiencyRow, ...]:
+    if p0 is None or pk is None:
+        return ()
+    return tuple(efficiency_row(n, pf, basis.rated_power_VA, p0, pk) for pf in pfs for n in loads)
+
+
+def efficiency_row(n: float, pf: float, rated_power: float, p0: float, pk: float) -> EfficiencyRow:
+    eta = performance.efficiency(n, pf, rated_power, p0, pk)
+    return EfficiencyRow(n, pf, 100 * eta, n * rated_power * pf, p0 + n * n * pk)
+
+
+def max_efficiency(record: Record, basis: Basis, p0: float | None, pk: float | None) -> MaxEfficiency | None:
+    if p0 is None or pk is None:
+        return None
+    n = performance.max_efficiency_load(p0, pk)
+    eta = performance.efficiency(n, 1.0, basis.rated_power_VA, p0, pk)
+    if record.load_profile is None:
+        return MaxEfficiency(n, 100 * eta)
+    blocks = [(b.duration, b.load, b.power_factor) for b in record.load_profile]
+    day, out, lost = performance.all_day_efficiency(blocks, basis.rated_power_VA, p0, pk)
+    return MaxEfficiency(n, 100 * eta, 1.0, 100 * day, out, lost)
+
+
+def regulation_table(loads, pfs, ld: LoadResult | None) -> tuple[RegulationRow, ...]:
+    if ld is None:
+        return ()
+    ur, ux = ld.performance_resistance_pct, ld.reactance_pct
+    return tuple(RegulationRow(n, pf, lag, performance.regulation(n, pf, lag, ur, ux),
+                               performance.voltage_drop(n, pf, lag, ur, ux))
+                 for n in loads for pf in pfs for lag in ((True,) if pf == 1.0 else (True, False)))
+
+
+def skipped_guarantee_warnings(record: Record) -> list[str]:
+    g = record.guarantees
+    if g is None:
+        return []
+    needs = {"no_load_loss": record.no_load, "no_load_current": record.no_load, "load_loss": record.load,
+             "impedance": record.load}
+    skipped = [name for name, test in needs.items() if getattr(g, name) is not None and test is None]
+    if g.total_loss is not None and (record.no_load is None or record.load is None):
+        skipped.append("total_loss")
+    return [f"The guaranteed {name.replace('_', ' ')} is not checked: the record lacks the test it needs."
+            for name in skipped]

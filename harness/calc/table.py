@@ -1,0 +1,109 @@
+"""The results as readable tables on a terminal (rich)."""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from typing import Any
+
+from rich.console import Console
+from rich.table import Table
+
+from harness.calc.results import Results
+
+_NO_LOAD_ROWS = (
+    ("No-load loss", "loss_W", "W"), ("  as measured", "loss_measured_W", "W"),
+    ("  waveform correction factor", "waveform_correction_factor", ""),
+    ("  mean-value vs rms deviation", "waveform_deviation_pct", "%"),
+    ("  temperature correction factor", "temperature_correction_factor", ""),
+    ("No-load current", "current_A", "A"), ("  of rated current", "current_pct", "%"),
+    ("Power factor", "power_factor", ""),
+    ("Spread of line voltages", "voltage_spread_pct", "%"), ("Spread of line currents", "current_spread_pct", "%"),
+)
+_LOAD_ROWS = (
+    ("Test current", "test_current_pu", "p.u."), ("Load loss, as measured", "loss_measured_W", "W"),
+    ("Load loss at rated current", "loss_W", "W"), ("  I2R part", "i2r_loss_W", "W"),
+    ("  additional part", "additional_loss_W", "W"), ("Load loss at reference temperature", "loss_ref_W", "W"),
+    ("Reference temperature", "reference_temperature_C", "degC"),
+    ("Winding temperature in the test", "test_temperature_C", "degC"),
+    ("Impedance voltage", "impedance_pct", "%"), ("  at reference temperature", "impedance_ref_pct", "%"),
+    ("Resistance voltage", "resistance_pct", "%"), ("  at reference temperature", "resistance_ref_pct", "%"),
+    ("Reactance voltage", "reactance_pct", "%"), ("Spread of line currents", "current_spread_pct", "%"),
+)
+
+
+def fmt(value: Any) -> str:
+    if value is None:
+        return "-"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float):
+        return f"{value:.5g}" if abs(value) < 1e5 else f"{value:.4e}"
+    return str(value)
+
+
+def _table(title: str, columns: Iterable[str], rows: Iterable[Iterable[Any]]) -> Table:
+    table = Table(title=title, title_justify="left")
+    for i, column in enumerate(columns):
+        table.add_column(column, justify="left" if i == 0 else "right")
+    for row in rows:
+        table.add_row(*(fmt(v) for v in row))
+    return table
+
+
+def _section(title: str, section: dict[str, Any] | None, spec) -> Table | None:
+    if section is None:
+        return None
+    rows = [(label, section.get(key), unit) for label, key, unit in spec if section.get(key) is not None]
+    return _table(title, ("quantity", "value", "unit"), rows)
+
+
+def _circuit(data: dict[str, Any]) -> Table:
+    keys = ("Rc_ohm", "Xm_ohm", "Req_ohm", "Xeq_ohm")
+    circuit = data["equivalent_circuit"]
+    rows = [(w, *(circuit[w][k] for k in keys)) for w in ("hv", "lv")]
+    return _table("Equivalent circuit per phase (star-equivalent), ohm", ("referred to", "Rc", "Xm", "Req", "Xeq"),
+                  rows)
+
+
+def _efficiency(data: dict[str, Any]) -> Table:
+    rows = [(r["load_pu"], r["power_factor"], r["efficiency_pct"], r["losses_W"]) for r in data["efficiency"]]
+    m = data["max_efficiency"]
+    if m is not None:
+        rows.append((f"max at {fmt(m['load_pu'])}", 1.0, m["efficiency_pct"], None))
+        if m["all_day_efficiency_pct"] is not None:
+            rows.append(("all day", None, m["all_day_efficiency_pct"], None))
+    return _table("Efficiency", ("load, p.u.", "power factor", "efficiency, %", "losses, W"), rows)
+
+
+def _regulation(data: dict[str, Any]) -> Table:
+    rows = [(r["load_pu"], r["power_factor"], "unity" if r["power_factor"] == 1.0 else
+             ("lagging" if r["lagging"] else "leading"), r["regulation_pct"], r["voltage_drop_pct"])
+            for r in data["regulation"]]
+    return _table("Regulation", ("load, p.u.", "power factor", "", "exact, %", "IEC 60076-8 drop, %"), rows)
+
+
+def _checks(data: dict[str, Any]) -> Table:
+    rows = [(c["quantity"].replace("_", " "), c["value"], c["guaranteed"], _limit(c["limit"]), c["unit"],
+             "PASS" if c["passed"] else "FAIL") for c in data["checks"]]
+    return _table("Checks against guarantees", ("quantity", "value", "guaranteed", "limit", "unit", "verdict"), rows)
+
+
+def _limit(limit: Any) -> str:
+    return f"{fmt(limit[0])} .. {fmt(limit[1])}" if isinstance(limit, list) else f"<= {fmt(limit)}"
+
+
+def render_results(results: Results, console: Console) -> None:
+    """Print every part of the results that the evaluation produced, then the warnings."""
+    data = results.to_dict()
+    rated = data["rated_current_A"]
+    console.print(f"Rated current: hv {fmt(rated['hv'])} A, lv {fmt(rated['lv'])} A")
+    tables = [_section("No-load test", data["no_load"], _NO_LOAD_ROWS),
+              _section("Load-loss test", data["load"], _LOAD_ROWS), _circuit(data)]
+    tables += [t for t, present in ((_efficiency(data), data["efficiency"]),
+                                    (_regulation(data), data["regulation"]), (_checks(data), data["checks"]))
+               if present]
+    for table in tables:
+        if table is not None:
+            console.print(table)
+    for warning in data["warnings"]:
+        console.print(f"[bold]warning:[/bold] {warning}", highlight=False, markup=True)

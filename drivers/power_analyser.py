@@ -11,12 +11,11 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from drivers.errors import InstrumentError, ProtocolError
-from drivers.numbers import SPECIAL_THRESHOLD, check_reading, parse_number
+from drivers.numbers import check_reading, parse_number
 from drivers.profile import QUANTITIES, PowerAnalyserProfile, Profile
 from drivers.scpi import ScpiInstrument, channel_list, require_finite
 from drivers.transport import Transport
 
-_LIMIT = SPECIAL_THRESHOLD
 
 
 @dataclass(frozen=True, slots=True)
@@ -55,6 +54,8 @@ class PowerAnalyser(ScpiInstrument):
         n_fields, n_channels = len(fmt.fields), len(self.channels)
         self._n_outer = n_channels if self._by_channel else n_fields
         self._n_inner = n_fields if self._by_channel else n_channels
+        # One channel, reply already in QUANTITIES order: the common case gets a shorter path.
+        self._direct = n_channels == 1 and fmt.layout == "by_quantity" and fmt.fields == QUANTITIES
         # Token index of each value, channel after channel in QUANTITIES order.
         self._used = [c * n_fields + fmt.fields.index(q) if self._by_channel
                       else fmt.fields.index(q) * n_channels + c
@@ -74,19 +75,31 @@ class PowerAnalyser(ScpiInstrument):
     def parse_snapshot(self, reply: str) -> tuple[ChannelReading, ...]:
         """Readings per channel from a snapshot reply; garbled or special values raise."""
         groups = reply.split(self._outer)
-        if len(groups) != self._n_outer or "_" in reply:  # float() would take "1_0" as 10
-            raise self._garbled(reply, f"expected {self._n_outer} group(s) split by '{self._outer}'")
-        tokens = groups if self._n_inner == 1 else self._split_groups(groups, reply)
-        try:
-            values = [float(tokens[i]) for i in self._used]
-        except ValueError:
-            values = self._strict_values(tokens, reply)
+        if self._direct and len(groups) == 5 and "_" not in reply:  # float() takes "1_0" as 10
+            try:
+                values = list(map(float, groups))
+            except ValueError:
+                values = self._strict_values(groups, reply)
+        else:
+            values = self._values(groups, reply)
         for v in values:
-            if not -_LIMIT < v < _LIMIT:
+            if not -9.0e37 < v < 9.0e37:  # SPECIAL_THRESHOLD, inlined: this runs per value
                 self._over_range(values)
         if len(values) == 5:
             return (ChannelReading(*values),)
         return tuple(ChannelReading(*values[k:k + 5]) for k in range(0, len(values), 5))
+
+    def _values(self, groups: list[str], reply: str) -> list[float]:
+        """Any layout, channel count and field order (the general, slightly slower path)."""
+        if len(groups) != self._n_outer:
+            raise self._garbled(reply, f"expected {self._n_outer} group(s) split by '{self._outer}'")
+        if "_" in reply:
+            raise self._garbled(reply, "'_' is not part of a SCPI number")
+        tokens = groups if self._n_inner == 1 else self._split_groups(groups, reply)
+        try:
+            return [float(tokens[i]) for i in self._used]
+        except ValueError:
+            return self._strict_values(tokens, reply)
 
     def _split_groups(self, groups: list[str], reply: str) -> list[str]:
         tokens: list[str] = []

@@ -7,6 +7,7 @@ from typing import Any
 
 from rich.console import Console
 from rich.table import Table
+from rich.text import Text
 
 from harness.calc.results import Results
 
@@ -106,4 +107,4 @@ def render_results(results: Results, console: Console) -> None:
         if table is not None:
             console.print(table)
     for warning in data["warnings"]:
-        console.print(f"[bold]warning:[/bold] {warning}", highlight=False, markup=True)
+        console.print(Text.assemble(("warning: ", "bold"), warning))

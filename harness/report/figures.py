@@ -7,6 +7,8 @@ HTML document without clashing ids. The XML prologue, the DOCTYPE (the only exte
 matplotlib writes) and the metadata block are removed.
 
 Lines are told apart by marker and line style as well as colour, so the figures read in grey.
+Figures are drawn on matplotlib's SVG canvas directly, never through pyplot: no window, no
+global figure registry, whatever backend the process has chosen.
 """
 
 from __future__ import annotations
@@ -18,20 +20,18 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 import matplotlib
+from matplotlib.axes import Axes
+from matplotlib.backends.backend_svg import FigureCanvasSVG
+from matplotlib.figure import Figure
 
-matplotlib.use("Agg")  # never a window: reports are built on headless bay PCs and CI
-
-from matplotlib.axes import Axes  # noqa: E402
-from matplotlib.backends.backend_svg import FigureCanvasSVG  # noqa: E402
-from matplotlib.figure import Figure  # noqa: E402
-
-from harness.report import fmt  # noqa: E402
+from harness.report import fmt
 
 # Okabe-Ito palette: distinguishable with the common colour-vision deficiencies.
 COLOURS = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#000000")
 MARKERS = ("o", "s", "^", "D", "v", "P", "X")
 LINESTYLES = ("-", "--", "-.", ":", (0, (5, 1, 1, 1)), (0, (3, 1)), (0, (1, 2)))
 LIMIT_COLOUR = "#B00000"
+MAX_TRACE_POINTS = 1500
 
 _RC = {
     "svg.fonttype": "none",
@@ -166,12 +166,30 @@ def trace_figure(trace: Mapping[str, Any], index: int, trip: Mapping[str, Any] |
         fig = new_figure(7.0, 1.5 + 1.25 * len(panels))
         axes = fig.subplots(len(panels), 1, sharex=True, squeeze=False)[:, 0]
         for i, (ax, (key, limit_key, label)) in enumerate(zip(axes, panels)):
-            ax.plot(t, _numbers(trace[key]), color=COLOURS[i], linewidth=1.3, label=label.split(" ")[0])
+            ax.plot(*decimate(t, _numbers(trace[key])), color=COLOURS[i], linewidth=1.3, label=label.split(" ")[0])
             ax.set_ylabel(label)
             _draw_limit(ax, (trace.get("limits") or {}).get(limit_key), label.split(" (")[1].rstrip(")"))
             _draw_trip(ax, trace, trip)
         axes[-1].set_xlabel("time (s)")
     return to_svg(fig, f"fig-trace-{index}")
+
+
+def decimate(t: list[float], y: list[float], points: int = MAX_TRACE_POINTS) -> tuple[list[float], list[float]]:
+    """At most about ``points`` points, keeping each bucket's lowest and highest sample.
+
+    A long ramp would otherwise make a heavy page; keeping the extremes keeps a spike (the one that
+    tripped the run) visible where plain thinning could drop it.
+    """
+    if len(t) <= points:
+        return t, y
+    size = math.ceil(len(t) / (points // 2))
+    keep: set[int] = {0, len(t) - 1}
+    for start in range(0, len(t), size):
+        bucket = [i for i in range(start, min(start + size, len(t))) if not math.isnan(y[i])]
+        if bucket:
+            keep.update((min(bucket, key=y.__getitem__), max(bucket, key=y.__getitem__)))
+    order = sorted(keep)
+    return [t[i] for i in order], [y[i] for i in order]
 
 
 def _draw_limit(ax: Axes, limit: Any, unit: str) -> None:

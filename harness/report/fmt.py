@@ -21,8 +21,10 @@ def num(value: Any, digits: int = SIGNIFICANT) -> str:
 
     Integers (counts, step numbers) are written as they are.
     """
+    if isinstance(value, str):
+        return value
     if not is_number(value):
-        return DASH if value is None else str(value)
+        return DASH  # None, NaN, infinity: a quantity that was not obtained
     if isinstance(value, int) or value == 0:
         return str(int(value))
     magnitude = math.floor(math.log10(abs(value)))

@@ -143,7 +143,12 @@ def detail_rows(section: Mapping[str, Any] | None) -> list[tuple[str, str, str]]
     """Every scalar of a results section as (label, value, unit), in the order calc gave them."""
     if not isinstance(section, Mapping):
         return []
-    return [(label_of(k), _scalar_text(v), unit_of(k)) for k, v in section.items() if _is_scalar(v)]
+    return [(label_of(k), _winding_name(k, v), unit_of(k)) for k, v in section.items() if _is_scalar(v)]
+
+
+def _winding_name(key: str, value: Any) -> str:
+    # Windings are named HV and LV in the trade's writing; the record keys them in lower case.
+    return str(value).upper() if key == "winding" and isinstance(value, str) else _scalar_text(value)
 
 
 def _is_scalar(value: Any) -> bool:

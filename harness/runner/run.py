@@ -185,7 +185,7 @@ def _finish(store: Any, run_id: str, status: str, trip: dict[str, Any] | None, r
     from harness.runner.reporting import write_run_reports
     report = write_run_reports(store, run_id)
     return RunOutcome(run_id, status, exit_code, trip, results, str(report) if report else None,
-                      str(store.path), str(store.run_folder(run_id)), safe, warnings, store.sample_count(run_id))
+                      str(store.path), str(store.run_folder(run_id)), safe, warnings, store.run(run_id)["samples"])
 
 
 def sha256(text: str) -> str:

@@ -97,7 +97,7 @@ class Analyser:
         band = getattr(self.spec.noise, quantity)
         sigma = abs(true) * band.reading / 100.0 + range_ * band.range / 100.0
         noise = float(self.rng.normal(0.0, sigma)) if sigma > 0 else 0.0
-        return true * (1.0 + cal.gain) + cal.offset * range_ + noise
+        return float(true * (1.0 + cal.gain) + cal.offset * range_ + noise)
 
 
 def _select(ranges: tuple[float, ...], value: float, unit: str) -> float:

@@ -42,7 +42,7 @@ _INSERT_READING = ("INSERT INTO readings (run_id, step_index, tag, channel, firs
                    + ", ".join(rows.READING_STATS) + ") VALUES (:run_id, :step_index, :tag, :channel, :first_id, "
                    ":last_id, :count, :stable, " + ", ".join(f":{n}" for n in rows.READING_STATS) + ")")
 _JSON_FIELDS = ("simulated", "trip", "record", "results")
-_SAMPLE_ID = operator.itemgetter(0)
+_RUN_OF_ROW = operator.itemgetter(0)
 
 
 class _Flusher(threading.Thread):
@@ -105,6 +105,7 @@ class Store:
                                  [(run_id,) for run_id in self._begun])
         finally:
             self._closed = True
+            self._counters.clear()  # a late add_sample then meets the closed store, not a lost buffer
             self._conn.close()
 
     def run_folder(self, run_id: str) -> Path:
@@ -330,7 +331,7 @@ class Store:
         # A copy: samples appended meanwhile stay for the next commit. OR IGNORE makes a retry
         # harmless when an interruption struck between a commit and the removal of its rows.
         batch = self._pending[:]
-        for run_id, group in itertools.groupby(batch, key=_SAMPLE_ID):
+        for run_id, group in itertools.groupby(batch, key=_RUN_OF_ROW):
             before = self._conn.total_changes
             self._conn.executemany(_INSERT_SAMPLE, group)
             added = self._conn.total_changes - before

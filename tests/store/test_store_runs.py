@@ -37,9 +37,9 @@ def test_run_ids_carry_the_utc_start_time_and_sort_by_it(store):
     after = time.strftime("%Y%m%d-%H%M%S", time.gmtime())
     assert re.fullmatch(r"\d{8}-\d{6}-[0-9a-f]{4}", run_id) and before <= run_id[:15] <= after
     # 2026-12-02 03:15:00 UTC is Unix time 1796181300 (computed by datetime, not by the store).
-    noon = dt.datetime(2026, 12, 2, 3, 15, tzinfo=dt.timezone.utc).timestamp()
-    assert new_run_id(noon).startswith("20261202-031500-")
-    assert new_run_id(noon) < new_run_id(noon + 1) < new_run_id(noon + 3600)
+    stamp = dt.datetime(2026, 12, 2, 3, 15, tzinfo=dt.timezone.utc).timestamp()
+    assert new_run_id(stamp).startswith("20261202-031500-")
+    assert new_run_id(stamp) < new_run_id(stamp + 1) < new_run_id(stamp + 3600)
 
 
 def test_the_run_keeps_texts_hashes_and_identity(store):
@@ -91,7 +91,8 @@ def test_steps_events_instruments_and_readings_come_back(store):
                       {"count": 4, "stable": True, "u_rms_mean": 417.5, "u_rms_std": 1.118, "p_mean": 160.0})
     store.end_step(run_id, 0, "done")
     steps = store.steps(run_id)
-    assert [(s["step_index"], s["kind"], s["name"], s["status"]) for s in steps] == [(0, "ramp", "to rated voltage", "done")]
+    assert [(s["step_index"], s["kind"], s["name"], s["status"]) for s in steps] == [
+        (0, "ramp", "to rated voltage", "done")]
     assert steps[0]["finished"] >= steps[0]["started"]
     event = store.events(run_id)[0]
     assert (event["t"], event["kind"], event["data"]) == (0.4, "warning", {"headroom_pct": 4.2})

@@ -20,8 +20,8 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
             max_readings: int, target_pct: float | None = None) -> MeasuredReading:
     window: list[Sample] = []
     temps: list[float] = []
-    stats = None
-    for n in range(max_readings):
+    stats: dict = {}
+    for _ in range(max_readings):
         run.clock.sleep(interval)
         window.append(run.read(tag=test))
         if test == "load-loss":
@@ -33,15 +33,14 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
             stats = _stats(window)
             if stats["stable"](stability_pct):
                 break
-    assert stats is not None
     stable = stats["stable"](stability_pct)
     if not stable:
         run.warn(f"{label}: readings not stable within {stability_pct:g} % after {max_readings} readings")
     result = MeasuredReading(test, label, run.step_index, run.fed, len(window), stats["mean"], stats["std"],
                              stable, float(np.mean(temps[-readings:])) if temps else None, target_pct)
+    stored = {f"{q}_{kind}": values[q] for kind, values in (("mean", result.mean), ("std", result.std)) for q in QUANTITIES}
     run.store.add_reading(run.run_id, run.step_index, label, window[0].id, window[-1].id,
-                          {"mean": result.mean, "std": result.std, "count": result.count, "stable": stable,
-                           "test": test, "winding": result.winding, "winding_temperature": result.winding_temperature})
+                          {**stored, "count": result.count, "stable": stable})
     run.readings.append(result)
     return result
 

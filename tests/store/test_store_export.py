@@ -1,0 +1,103 @@
+"""Raw samples out: arrays, CSV, Parquet; and the throughput benchmark."""
+
+from __future__ import annotations
+
+import csv
+import importlib.util
+import math
+
+import numpy as np
+import pytest
+from store_helpers import begin
+
+from harness.store import SAMPLE_COLUMNS, Store, StoreError, UnknownRunError, bench_store
+from harness.store.export import EXPORT_NAMES
+
+HAS_PYARROW = importlib.util.find_spec("pyarrow") is not None
+# u_rms, u_mean, i_rms, p, freq, setpoint; None = the analyser gives no mean-rectified value.
+VALUES = [
+    (0, 0.0, 0, 0.0, 0.0, 0.0, 0.0, 50.0, 0.0, "start"),
+    (0, 0.5, 0, 207.5, None, 1.05, 40.25, 50.0, 210.0, None),
+    (1, 1.0, 1, 415.1, 414.3, 2.1, 160.0, 49.98, 415.0, "no_load_rated"),
+    (1, 1.5, 0, float("nan"), 414.2, 2.1, 160.2, 50.01, 415.0, "overrange"),
+]
+
+
+@pytest.fixture
+def filled(tmp_path):
+    with Store(tmp_path) as store:
+        run_id = begin(store)
+        for step, t, channel, *rest in VALUES:
+            store.add_sample(run_id, step, t, channel, *rest)
+        yield store, run_id
+
+
+def test_samples_come_back_as_columns(filled):
+    store, run_id = filled
+    columns = store.samples(run_id[:12])
+    assert tuple(columns) == SAMPLE_COLUMNS
+    assert columns["id"].tolist() == [0, 1, 2, 3] and columns["id"].dtype == np.int64
+    assert columns["step_index"].tolist() == [0, 0, 1, 1] and columns["channel"].tolist() == [0, 0, 1, 0]
+    assert columns["u_rms"][2] == 415.1 and math.isnan(columns["u_rms"][3])
+    assert math.isnan(columns["u_mean"][1]) and columns["freq"].tolist() == [50.0, 50.0, 49.98, 50.01]
+    assert columns["tag"].tolist() == ["start", None, "no_load_rated", "overrange"]
+    assert np.all(np.diff(columns["wall"]) >= 0)
+
+
+def test_an_empty_run_has_empty_columns(tmp_path):
+    with Store(tmp_path) as store:
+        columns = store.samples(begin(store))
+    assert all(len(c) == 0 for c in columns.values()) and columns["t"].dtype == float
+
+
+def test_csv_export_round_trips_every_value(filled, tmp_path):
+    store, run_id = filled
+    path = store.export_csv(run_id, tmp_path / "out" / "samples.csv")
+    with path.open(newline="", encoding="utf-8") as handle:
+        table = list(csv.DictReader(handle))
+    assert list(table[0]) == list(EXPORT_NAMES)
+    assert [row["tag"] for row in table] == ["start", "", "no_load_rated", "overrange"]
+    for row, (step, t, channel, u_rms, u_mean, i_rms, p, freq, setpoint, _tag) in zip(table, VALUES):
+        expected = [step, t, channel, u_rms, u_mean, i_rms, p, freq, setpoint]
+        names = ["step_index", "t_s", "channel", "u_rms_V", "u_mean_V", "i_rms_A", "p_W", "freq_Hz", "setpoint_V"]
+        read = [float(row[n]) if row[n] else None for n in names]
+        assert read == [None if v is None or v != v else float(v) for v in expected]
+
+
+def test_csv_export_into_a_folder_names_the_file_by_run(filled, tmp_path):
+    store, run_id = filled
+    assert store.export_csv(run_id, tmp_path) == tmp_path / f"{run_id}-samples.csv"
+
+
+def test_exporting_an_unknown_run_is_a_clear_error(filled, tmp_path):
+    store, _ = filled
+    with pytest.raises(UnknownRunError):
+        store.export_csv("20990101-000000-0000", tmp_path / "x.csv")
+
+
+@pytest.mark.skipif(HAS_PYARROW, reason="pyarrow is installed")
+def test_parquet_without_pyarrow_is_a_clear_error(filled, tmp_path):
+    store, run_id = filled
+    with pytest.raises(StoreError, match="pip install pyarrow"):
+        store.export_parquet(run_id, tmp_path / "x.parquet")
+    assert not (tmp_path / "x.parquet").exists()
+
+
+@pytest.mark.skipif(not HAS_PYARROW, reason="needs pyarrow")
+def test_parquet_export_round_trips(filled, tmp_path):
+    import pyarrow.parquet as pq
+
+    store, run_id = filled
+    table = pq.read_table(store.export_parquet(run_id, tmp_path / "x.parquet")).to_pydict()
+    assert table["u_rms_V"][2] == 415.1 and table["tag"][1] is None and table["id"] == [0, 1, 2, 3]
+
+
+def test_bench_store_counts_what_it_stored():
+    figures = bench_store(3000)
+    assert figures["stored"] == figures["samples"] == 3000
+    assert figures["samples_per_s"] > 0 and figures["bytes_per_sample"] > 0
+
+
+def test_bench_store_takes_a_whole_number():
+    with pytest.raises(StoreError, match="whole number"):
+        bench_store(0)

@@ -112,6 +112,7 @@ class PyvisaTransport:
 
     def _open(self, command: str | None) -> Any:
         rm = self._resource_manager(command)
+        self._check_simulated_name(rm, command)
         try:
             self._res = rm.open_resource(self.resource, read_termination="\n",
                                          write_termination="\n", timeout=self._timeout_ms)
@@ -120,6 +121,16 @@ class PyvisaTransport:
         except ValueError as exc:  # pyvisa's InvalidResourceName
             raise ConnectionLost(f"not a VISA resource name: {exc}", self.name, command) from exc
         return self._res
+
+    def _check_simulated_name(self, rm: Any, command: str | None) -> None:
+        """pyvisa-sim opens a mistyped name and then answers every read with '' (and a
+        warning), so the name is checked against its definitions first."""
+        if not type(getattr(rm, "visalib", None)).__module__.startswith("pyvisa_sim"):
+            return
+        known = rm.list_resources("?*")  # plain list_resources() leaves out SOCKET resources
+        if self.resource not in known:
+            raise ConnectionLost(f"the simulated library has no '{self.resource}' "
+                                 f"(it has: {', '.join(known) or 'none'})", self.name, command)
 
     def _session(self, command: str) -> Any:
         if self._res is not None:

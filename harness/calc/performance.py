@@ -40,9 +40,10 @@ def _phi(pf: float, lagging: bool) -> float:
 
 def regulation(n: float, pf: float, lagging: bool, ur_pct: float, ux_pct: float) -> float:
     """Exact regulation in %: output held at rated voltage, V_in = V_out + I (R + jX) per unit."""
-    current = n * cmath.exp(-1j * _phi(pf, lagging))
-    v_in = 1.0 + current * complex(ur_pct, ux_pct) / 100.0
-    return 100.0 * (abs(v_in) - 1.0)
+    drop = n * cmath.exp(-1j * _phi(pf, lagging)) * complex(ur_pct, ux_pct) / 100.0
+    # |1 + drop| - 1 written without the cancellation of two numbers near 1 (small loads).
+    v_in_sq_minus_1 = 2.0 * drop.real + abs(drop) ** 2
+    return 100.0 * v_in_sq_minus_1 / (abs(1.0 + drop) + 1.0)
 
 
 def voltage_drop(n: float, pf: float, lagging: bool, ur_pct: float, ux_pct: float) -> float:

@@ -27,13 +27,13 @@ instruments:
     channels: {{ambient: 1, oil: 2, winding: 3}}
   bay_control: {{resource: "{bay_control}", profile: generic-bay-control, timeout: 0.5 s}}
 measurement: {{vt_ratio: 1, ct_ratio: 1}}
-limits:
-  voltage: 1200 V
-  current: 120 A
-  power: 40 kW
+limits:                 # the bay's hard limits: its source's ratings
+  voltage: {max_voltage}
+  current: {max_current}
+  power: {max_power}
   energised_time: 2 h
   winding_temperature: 110 degC
-  slew: 200 V/s
+  slew: {max_slew}
 safe_state: {{deenergised_voltage: 5 V, deenergised_current: 0.05 A, confirm_timeout: 5 s}}
 readings: {{late_after: 1 s, stale_after: 5 s, temperature_interval: 2 s}}
 """
@@ -42,11 +42,21 @@ ROLES = ("source", "analyser", "resistance_meter", "thermometer", "bay_control")
 PLACEHOLDER = {role: f"TCPIP0::127.0.0.1::{5025 + i}::SOCKET" for i, role in enumerate(ROLES)}
 
 
-def sim_station_text(resources: dict[str, str] | None = None) -> str:
+# The default scenario's source, for checks made before a scenario is loaded.
+DEFAULT_RATINGS = {"max_voltage": "1000 V", "max_current": "20 A", "max_power": "20000 W", "max_slew": "100 V/s"}
+
+
+def sim_station_text(resources: dict[str, str] | None = None, ratings: dict[str, str] | None = None) -> str:
     """The station file for the simulated bay's resources (placeholders before it is served)."""
-    return _TEMPLATE.format(**{**PLACEHOLDER, **(resources or {})})
+    return _TEMPLATE.format(**{**PLACEHOLDER, **(resources or {}), **DEFAULT_RATINGS, **(ratings or {})})
 
 
-def sim_station(resources: dict[str, str] | None = None) -> tuple[Station, str]:
-    text = sim_station_text(resources)
+def ratings_of(source) -> dict[str, str]:
+    """A simulated source's ratings as station limits (power: the source's volt-amperes)."""
+    return {"max_voltage": f"{source.max_voltage:g} V", "max_current": f"{source.max_current:g} A",
+            "max_power": f"{source.max_voltage * source.max_current:g} W", "max_slew": f"{source.max_slew:g} V/s"}
+
+
+def sim_station(resources: dict[str, str] | None = None, ratings: dict[str, str] | None = None) -> tuple[Station, str]:
+    text = sim_station_text(resources, ratings)
     return validate(Station, load_text(text, SIM_STATION_FILE)), text

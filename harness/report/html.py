@@ -64,6 +64,7 @@ def context(bundle: ReportBundle) -> dict[str, Any]:
         "circuit_sides": [s.upper() for s in ("hv", "lv") if isinstance((results.get("equivalent_circuit") or {}).get(s), dict)],
         "efficiency": tables.efficiency_table(results.get("efficiency") or []),
         "max_efficiency": _max_efficiency(results.get("max_efficiency")),
+        "all_day_efficiency": _all_day(results.get("max_efficiency")),
         "regulation": tables.regulation_rows(results.get("regulation") or []),
         "readings": tables.reading_rows(bundle.readings), "events": _event_rows(bundle.events),
         "warnings": bundle.all_warnings(), "uncertainty": tables.uncertainty_rows(results.get("uncertainty")),
@@ -102,6 +103,11 @@ def _max_efficiency(maximum: Any) -> str | None:
     load = maximum.get("load_pu")
     at = f" at {fmt.num(load * 100, 3)} % of rated load" if fmt.is_number(load) else ""
     return f"{fmt.num(maximum['efficiency_pct'], 5)} %{at} (unity power factor)"
+
+
+def _all_day(maximum: Any) -> str | None:
+    value = maximum.get("all_day_efficiency_pct") if isinstance(maximum, dict) else None
+    return f"{fmt.num(value, 5)} %" if fmt.is_number(value) else None
 
 
 def nameplate_rows(unit: dict[str, Any]) -> list[tuple[str, str]]:

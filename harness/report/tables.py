@@ -33,6 +33,7 @@ class MainRow:
     verdict_class: str
     checked: int | None = None
     """Which value column (0 measured, 1 corrected, 2 at reference) was compared with the guarantee."""
+    note: str = ""
 
 
 @dataclass(frozen=True)
@@ -40,9 +41,9 @@ class _RowSpec:
     label: str
     unit: str
     section: str
-    measured: str | None
-    corrected: str | None
-    at_reference: str | None
+    measured: str | tuple[str, ...] | None
+    corrected: str | tuple[str, ...] | None
+    at_reference: str | tuple[str, ...] | None
     check_names: tuple[str, ...]
     checked: int
 
@@ -50,7 +51,7 @@ class _RowSpec:
 # Which results keys fill which column. "Corrected" is the waveform correction for no-load loss
 # and the scaling to rated current for load loss and impedance.
 _ROWS = (
-    _RowSpec("No-load loss", "W", "no_load", "loss_measured_W", "loss_W", "loss_ref_W",
+    _RowSpec("No-load loss", "W", "no_load", "loss_measured_W", ("loss_waveform_corrected_W", "loss_W"), "loss_ref_W",
              ("no_load_loss", "no_load_loss_W"), 1),
     _RowSpec("No-load current", "%", "no_load", "current_pct", None, None,
              ("no_load_current", "no_load_current_pct"), 0),
@@ -74,8 +75,14 @@ _LABELS = {
     "loss_measured": "loss, measured", "loss": "loss, corrected", "loss_ref": "loss at reference temperature",
     "impedance_measured": "impedance, measured",
     "impedance": "impedance at rated current", "impedance_ref": "impedance at reference temperature",
-    "resistance": "resistance (at reference temperature)", "reactance": "reactance",
-    "temperature": "winding temperature during the test", "test_current": "test current",
+    "resistance": "resistance", "resistance_ref": "resistance at reference temperature", "reactance": "reactance",
+    "temperature": "winding temperature during the test", "test_temperature": "winding temperature during the test",
+    "test_current": "test current", "loss_waveform_corrected": "loss, waveform-corrected",
+    "loss_current": "loss component of the current", "magnetising_current": "magnetising current",
+    "voltage_mean": "voltage, mean-value reading scaled to rms", "voltage_spread": "voltage spread between phases",
+    "current_spread": "current spread between phases", "impedance_voltage": "impedance voltage at rated current",
+    "i2r_loss": "I²R loss", "additional_loss": "additional loss", "i2r_loss_ref": "I²R loss at reference temperature",
+    "additional_loss_ref": "additional loss at reference temperature", "waveform_form": "waveform correction form",
     "winding": "energised winding", "waveform_deviation": "waveform deviation (mean-value vs rms)",
     "load_loss_ref": "load loss at reference temperature",
 }
@@ -98,11 +105,16 @@ def _checks_by_name(results: Mapping[str, Any]) -> dict[str, dict[str, Any]]:
 
 def _cells(spec: _RowSpec, section: Mapping[str, Any], check: Mapping[str, Any]) -> list[str]:
     """The three value cells; the compared one falls back to the check's value when the section lacks it."""
-    keys = (spec.measured, spec.corrected, spec.at_reference)
-    cells = [fmt.DASH if key is None else fmt.num(section.get(key)) for key in keys]
+    cells = [fmt.num(_first(section, keys)) for keys in (spec.measured, spec.corrected, spec.at_reference)]
     if cells[spec.checked] == fmt.DASH and fmt.is_number(check.get("value")):
         cells[spec.checked] = fmt.num(check["value"])
     return cells
+
+
+def _first(section: Mapping[str, Any], keys: str | tuple[str, ...] | None) -> Any:
+    """The first of ``keys`` that the section holds a value for (None when it holds none)."""
+    names = (keys,) if isinstance(keys, str) else keys or ()
+    return next((section[k] for k in names if section.get(k) is not None), None)
 
 
 def _find_check(checks: dict[str, dict[str, Any]], names: tuple[str, ...]) -> dict[str, Any] | None:
@@ -113,23 +125,23 @@ def _main_row(spec: _RowSpec, results: Mapping[str, Any], checks: dict[str, dict
     section = results.get(spec.section) or {}
     check = _find_check(checks, spec.check_names)
     keys = (spec.measured, spec.corrected, spec.at_reference)
-    if check is None and not any(k and fmt.is_number(section.get(k)) for k in keys):
+    if check is None and not any(fmt.is_number(_first(section, k)) for k in keys):
         return None
     check = check or {}
     return MainRow(
         spec.label, spec.unit, *_cells(spec, section, check),
         fmt.num(check.get("guaranteed")), fmt.limit_text(check.get("limit"), ""),
         fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")),
-        spec.checked if check else None,
+        spec.checked if check else None, str(check.get("note") or ""),
     )
 
 
 def _extra_row(name: str, check: Mapping[str, Any]) -> MainRow:
     """A check the table has no line for: its value is the one compared."""
     return MainRow(
-        label_of(name), unit_of(name), fmt.DASH, fmt.num(check.get("value")), fmt.DASH,
+        label_of(name), str(check.get("unit") or unit_of(name)), fmt.DASH, fmt.num(check.get("value")), fmt.DASH,
         fmt.num(check.get("guaranteed")), fmt.limit_text(check.get("limit"), ""),
-        fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")), 1,
+        fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")), 1, str(check.get("note") or ""),
     )
 
 

@@ -10,6 +10,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
+from drivers.errors import InstrumentReportedError
 from harness.common.clock import Clock
 from harness.config.checks import EffectiveLimits, rated_current, rated_voltage, resolve_target
 from harness.config.sequence import Sequence
@@ -21,6 +22,7 @@ from harness.safety import ReadingFault, SafeOutcome, Supervisor, make_safe
 # Host jitter does not scale with the simulated bay's clock: a reading counts as late only past
 # this many real seconds as well as past the station's bay-time threshold.
 LATE_FLOOR_REAL_S = 0.25
+RANGE_HEADROOM = 1.3  # range chosen for 130 % of the reading: room for drift below the overload point
 
 
 @dataclass(frozen=True, slots=True)
@@ -74,6 +76,8 @@ class Run:
     warnings: list[str] = field(default_factory=list)
     gains: dict[str, float] = field(default_factory=dict)
     _next_temperature_t: float = 0.0
+    _ranges: tuple[float, float] = (0.0, 0.0)
+    update_interval: float = 0.2
 
     def __post_init__(self) -> None:
         from harness.config.checks import station_limits
@@ -109,6 +113,28 @@ class Run:
         self.energised = True
         self.supervisor.energised_since = self.clock.now()
         self.event("energised", "source output on at zero volts")
+
+    # -- analyser ranges ----------------------------------------------------------------------
+    def range_for_limits(self) -> None:
+        """While ramping, ranges wide enough to read up to the limits (the supervisor trips there)."""
+        m, limits = self.station.measurement, self.supervisor.limits
+        self._set_ranges(limits.voltage / m.vt_ratio, limits.current / m.ct_ratio)
+
+    def fit_ranges(self, sample: Sample) -> None:
+        """Before a measure, the smallest ranges with headroom: % of range errors stay small."""
+        m = self.station.measurement
+        self._set_ranges(RANGE_HEADROOM * max(sample.u_rms, sample.u_mean) / m.vt_ratio,
+                         RANGE_HEADROOM * sample.i_rms / m.ct_ratio)
+
+    def _set_ranges(self, volts: float, amps: float) -> None:
+        if (volts, amps) == self._ranges:
+            return
+        try:
+            self.bay.analyser.set_ranges(voltage=volts, current=amps)
+            self._ranges = (volts, amps)
+        except InstrumentReportedError as exc:
+            self.warn(f"analyser refused ranges for {volts:.4g} V / {amps:.4g} A ({exc.text}); ranges left as they were")
+            self._ranges = (volts, amps)
 
     # -- readings ---------------------------------------------------------------------------
     def read(self, tag: str | None = None) -> Sample:

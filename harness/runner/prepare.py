@@ -5,12 +5,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from harness.common.errors import InputError
 from harness.common.yamlio import load_file, validate
 from harness.config.checks import check
 from harness.config.sequence import Sequence
-from harness.config.sim_station import SIM_STATION_FILE, sim_station
+from harness.config.sim_station import SIM_STATION_FILE, ratings_of, sim_station
 from harness.config.station import Station
 
 
@@ -32,14 +33,18 @@ class Prepared:
     station: Station
     station_text: str
     station_file: str
+    scenario: Any = None
 
 
 def prepare(options: RunOptions) -> Prepared:
     """Load and cross-check sequence and station; nothing is touched on the bay."""
+    scenario = None
     loaded = load_file(options.sequence)
     sequence = validate(Sequence, loaded)
     if options.station is None:
-        station, station_text = sim_station()
+        from harness.sim.scenario import load_scenario
+        scenario = load_scenario(options.scenario)
+        station, station_text = sim_station(ratings=ratings_of(scenario.source))
         station_file = SIM_STATION_FILE
     else:
         st_loaded = load_file(options.station)
@@ -50,7 +55,7 @@ def prepare(options: RunOptions) -> Prepared:
                          station_file, 1, 1)
     if options.time_scale not in (None, 1.0) and not station.simulated:
         raise InputError("--time-scale is for the simulated bay only; a real bay runs in real time", station_file, 1, 1)
-    return Prepared(sequence, _text(options.sequence), station, station_text, station_file)
+    return Prepared(sequence, _text(options.sequence), station, station_text, station_file, scenario)
 
 
 def _text(path: Path) -> str:

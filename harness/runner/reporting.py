@@ -19,7 +19,7 @@ def write_run_reports(store: Any, run_id: str) -> Path:
     bundle = run_bundle(store, run_id)
     paths = write_reports(folder, bundle)
     store.export_csv(run_id, folder / "samples.csv")
-    return Path(paths["report.html"])
+    return Path(paths["html"])
 
 
 def run_bundle(store: Any, run_id: str) -> ReportBundle:

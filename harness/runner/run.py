@@ -17,7 +17,8 @@ from typing import Any, Iterator
 from drivers.errors import InstrumentError
 from harness import __version__
 from harness.common.clock import Clock
-from harness.config.sim_station import sim_station
+from harness.config.sim_station import ratings_of, sim_station
+from harness.config.station import Station
 from harness.runner.bay import Bay, open_bay
 from harness.runner.context import Run
 from harness.runner.evaluation import evaluate_run
@@ -37,14 +38,13 @@ class Terminated(Exception):
 
 
 @contextlib.contextmanager
-def simulated_bay(options: RunOptions, clock: Clock) -> Iterator[tuple[Station, str]]:
+def simulated_bay(prepared: Prepared, options: RunOptions, clock: Clock) -> Iterator[tuple[Station, str]]:
     from harness.sim.bay import Bay as SimBay
-    from harness.sim.scenario import load_scenario
     from harness.sim.server import SimServer
 
-    scenario = load_scenario(options.scenario)
+    scenario = prepared.scenario
     with SimServer(SimBay(scenario, clock, faults=options.faults)) as server:
-        yield sim_station(server.resources)
+        yield sim_station(server.resources(), ratings_of(scenario.source))
 
 
 @contextlib.contextmanager
@@ -97,7 +97,7 @@ def execute(options: RunOptions, store: Any) -> RunOutcome:
     with contextlib.ExitStack() as stack:
         station, station_text = prepared.station, prepared.station_text
         if simulated:
-            station, station_text = stack.enter_context(simulated_bay(options, clock))
+            station, station_text = stack.enter_context(simulated_bay(prepared, options, clock))
         run_id = store.begin_run(
             unit=prepared.sequence.unit.serial, lab=station.lab, station_name=station.name,
             sequence_text=prepared.sequence_text, station_text=station_text, software_version=__version__,
@@ -158,7 +158,9 @@ def _start_at_zero(run: Run) -> None:
     source.set_voltage(0.0)
     if source.output_is_on() or source.voltage_setpoint() != 0.0:
         raise Trip("the source did not confirm output off at zero volts before the run", step="start")
-    run.event("ready", "instruments identified; source output off at zero volts")
+    run.update_interval = max(run.bay.analyser.averaging(), 0.05)
+    run.event("ready", f"instruments identified; source output off at zero volts; analyser updates every "
+                       f"{run.update_interval:g} s")
 
 
 def _trip(run: Run, exc: Trip) -> dict[str, Any]:

@@ -8,7 +8,7 @@ import pytest
 from scipy.optimize import minimize_scalar
 
 from harness.calc import evaluate, load_record
-from harness.calc.performance import efficiency
+from harness.calc.performance import efficiency, max_efficiency_load
 
 RECORDS = sorted((Path(__file__).resolve().parents[2] / "sequences" / "records").glob("*.yaml"))
 
@@ -28,7 +28,6 @@ def test_closed_form_maximum_matches_the_optimiser(path):
 
 @pytest.mark.parametrize(("p0", "pk"), [(60.0, 60.0), (100.0, 1000.0), (950.0, 6050.0), (2.0, 8000.0)])
 def test_closed_form_for_chosen_losses(p0, pk):
-    from harness.calc.performance import max_efficiency_load
     found = minimize_scalar(lambda n: -efficiency(n, 1.0, 100e3, p0, pk), bounds=(1e-3, 3.0), method="bounded",
                             options={"xatol": 1e-12})
     assert max_efficiency_load(p0, pk) == pytest.approx(found.x, rel=1e-4)

@@ -50,7 +50,7 @@ def test_sequence_cannot_raise_a_station_limit(tmp_path: Path) -> None:
     path = routine_with(tmp_path, "  voltage: 520 V", "  voltage: 5 kV")
     err = error_of(path)
     assert (err.line, err.column) == (line_of(path, "voltage: 5 kV"), 12)
-    assert "above the station's hard limit of 1200 V" in str(err)
+    assert "above the station's hard limit of 1000 V" in str(err)
 
 
 def test_step_cannot_raise_the_sequence_limit(tmp_path: Path) -> None:

@@ -112,6 +112,11 @@ def test_open_failure_is_connection_lost(exc: BaseException) -> None:
     assert info.value.instrument == "meter"
 
 
+def test_mistyped_simulated_resource_is_refused_at_open(sim_rm) -> None:
+    with pytest.raises(ConnectionLost, match="has no 'TCPIP0::sim-thermometr::5025::SOCKET'.*sim-thermometer"):
+        PyvisaTransport("TCPIP0::sim-thermometr::5025::SOCKET", rm=sim_rm("generic-thermometer"), name="t")
+
+
 def test_invalid_resource_name_with_pyvisa_py() -> None:
     with pytest.raises(ConnectionLost, match="cannot open|not a VISA resource name"):
         PyvisaTransport("no such thing", name="thermometer")

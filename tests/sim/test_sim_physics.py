@@ -64,7 +64,8 @@ def test_winding_warms_during_a_long_load_test_and_resistance_follows(make_bay):
         hv = lb["resistance_meter"]
         r_cold = float(hv.query("MEAS:FRES? (@1)"))
         t_cold = float(lb["thermometer"].query("MEAS:TEMP? (@3)"))
-        lb["bay_control"].write("WIR:FED HV;OTH SHOR")
+        # A write on one socket and the next on another are not ordered: confirm before energising.
+        assert lb["bay_control"].query("WIR:FED HV;OTH SHOR;*OPC?") == "1"
         z_hv = DEFAULT.transformer.hv.rated_voltage * 0.04 / RATED_HV_CURRENT
         energise(lb, RATED_HV_CURRENT * z_hv)
         start = float(lb["thermometer"].query("MEAS:TEMP? (@3)"))

@@ -21,6 +21,8 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
     window: list[Sample] = []
     temps: list[float] = []
     stats: dict = {}
+    if run.last_sample is not None:
+        run.fit_ranges(run.last_sample)
     for _ in range(max_readings):
         run.clock.sleep(interval)
         window.append(run.read(tag=test))

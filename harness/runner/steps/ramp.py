@@ -15,8 +15,8 @@ from harness.runner.context import Run, Sample
 from harness.runner.steps import register
 from harness.safety import Trip
 
-READ_INTERVAL_S = 0.1     # bay seconds between readings while ramping
-SETTLED_CHANGE = 0.0005    # relative change of the applied voltage between readings
+SETTLED_CHANGE = 0.001     # spread of the last three applied-voltage readings that counts as settled
+K_RANGE = (0.8, 1.25)      # plausible applied/set voltage ratios; outside, a reading is mid-slew
 LEARN_FROM = 0.05          # learn the gain once the applied voltage passes 5 % of the goal
 
 
@@ -44,6 +44,7 @@ def initial_gain(run: Run, quantity: str) -> float:
 
 
 def ramp_to(run: Run, quantity: str, target: float, tolerance_pct: float, method: str = "learned") -> RampResult:
+    run.range_for_limits()
     run.energise()
     run.bay.source.set_slew(run.station.limits.slew)
     if method == "fixed-increment":
@@ -58,22 +59,23 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
     k = 1.0  # applied volts per volt of setpoint (source output impedance, wiring)
     goal = target / gain
     run.send_setpoint(min(goal * 0.5, run.supervisor.limits.voltage) if quantity == "current" else goal * 0.98)
-    previous_u = -1.0
+    applied: list[float] = []
     peak = 0.0
     deadline = start + _time_allowed(run, goal)
     while True:
-        run.clock.sleep(READ_INTERVAL_S)
+        run.clock.sleep(run.update_interval)
         s = run.read()
         y = measured(s, quantity)
         peak = max(peak, y)
-        settled = previous_u > 0 and abs(s.u_rms - previous_u) <= SETTLED_CHANGE * max(s.u_rms, 1e-9)
-        previous_u = s.u_rms
+        if not applied or s.u_rms != applied[-1]:
+            applied.append(s.u_rms)  # a repeated value is the same analyser update, not a settled source
+        settled = _settled(applied)
         if settled and abs(y - target) <= tol:
             run.gains[quantity] = y / s.u_rms
             return RampResult(y, run.clock.now() - start, peak)
         if s.u_rms > LEARN_FROM * goal and y > 0:
             gain = y / s.u_rms
-            if settled and run.setpoint > 0:
+            if settled and run.setpoint > 0 and K_RANGE[0] <= s.u_rms / run.setpoint <= K_RANGE[1]:
                 k = s.u_rms / run.setpoint
             goal = target / gain
             wanted = goal / k
@@ -81,6 +83,14 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
                 run.send_setpoint(wanted)
         if run.clock.now() > deadline:
             raise Trip(f"ramp did not reach {target:.4g} within tolerance", quantity, y, target, run.step_title, run.clock.now())
+
+
+def _settled(applied: list[float]) -> bool:
+    """The last three distinct readings of the applied voltage agree within SETTLED_CHANGE."""
+    if len(applied) < 3:
+        return False
+    last = applied[-3:]
+    return (max(last) - min(last)) <= SETTLED_CHANGE * max(last)
 
 
 def _worth_sending(current: float, wanted: float) -> bool:

@@ -5,6 +5,7 @@ Everything here tolerates missing keys: a tripped run may have only part of the 
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
@@ -103,12 +104,22 @@ def _checks_by_name(results: Mapping[str, Any]) -> dict[str, dict[str, Any]]:
     return {str(c.get("quantity")): dict(c) for c in results.get("checks", []) or [] if isinstance(c, Mapping)}
 
 
-def _cells(spec: _RowSpec, section: Mapping[str, Any], check: Mapping[str, Any]) -> list[str]:
-    """The three value cells; the compared one falls back to the check's value when the section lacks it."""
-    cells = [fmt.num(_first(section, keys)) for keys in (spec.measured, spec.corrected, spec.at_reference)]
-    if cells[spec.checked] == fmt.DASH and fmt.is_number(check.get("value")):
-        cells[spec.checked] = fmt.num(check["value"])
-    return cells
+def _cells(spec: _RowSpec, section: Mapping[str, Any], check: Mapping[str, Any]) -> tuple[list[str], int]:
+    """The three value cells and which one the check compared.
+
+    The compared column is the one holding the check's value (for IEEE that is the no-load loss
+    at reference temperature, for IEC the waveform-corrected one); when none does, the row's
+    usual column, filled with the check's value if the section lacks it.
+    """
+    raw = [_first(section, keys) for keys in (spec.measured, spec.corrected, spec.at_reference)]
+    cells = [fmt.num(v) for v in raw]
+    value = check.get("value")
+    matches = [i for i, v in enumerate(raw) if fmt.is_number(v) and fmt.is_number(value) and math.isclose(v, value, rel_tol=1e-9)]
+    if matches:
+        return cells, matches[-1]
+    if cells[spec.checked] == fmt.DASH and fmt.is_number(value):
+        cells[spec.checked] = fmt.num(value)
+    return cells, spec.checked
 
 
 def _first(section: Mapping[str, Any], keys: str | tuple[str, ...] | None) -> Any:
@@ -128,11 +139,12 @@ def _main_row(spec: _RowSpec, results: Mapping[str, Any], checks: dict[str, dict
     if check is None and not any(fmt.is_number(_first(section, k)) for k in keys):
         return None
     check = check or {}
+    cells, checked = _cells(spec, section, check)
     return MainRow(
-        spec.label, spec.unit, *_cells(spec, section, check),
+        spec.label, spec.unit, *cells,
         fmt.num(check.get("guaranteed")), fmt.limit_text(check.get("limit"), ""),
         fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")),
-        spec.checked if check else None, str(check.get("note") or ""),
+        checked if check else None, str(check.get("note") or ""),
     )
 
 

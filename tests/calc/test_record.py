@@ -176,7 +176,8 @@ def test_unsupported_format_version(tmp_path):
 
 def test_load_profile_must_cover_24_hours(tmp_path):
     message = _error(tmp_path, extra="load_profile:\n  - {duration: 20 h, load: 0.5}\n")
-    _located(message, _line_of(BASE, "{extra}"), "covers 20 h")
+    # Located at the list itself, which starts on the line after its key.
+    _located(message, _line_of(BASE, "{extra}") + 1, "covers 20 h")
 
 
 def test_waveform_fractions_sum_to_one(tmp_path):

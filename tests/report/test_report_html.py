@@ -192,3 +192,15 @@ def test_text_from_the_bundle_is_escaped(demo):
                                  warnings=["<b>bold</b> & more"])
     html = render_html(bundle)
     assert "<script>" not in html and "&lt;script&gt;" in html and "&lt;b&gt;bold&lt;/b&gt; &amp; more" in html
+
+
+def test_the_compared_value_is_marked_where_the_check_took_it(demo):
+    from harness.report.tables import main_rows
+
+    rows = {r.quantity: r for r in main_rows(demo.results)}
+    assert rows["No-load loss"].checked == 1 and rows["Load loss"].checked == 2 and rows["Total losses"].checked == 2
+    # An IEEE-style no-load loss, compared at reference temperature: the third column is marked.
+    no_load = dict(demo.results["no_load"], loss_ref_W=240.2)
+    checks = [dict(c, value=240.2) if c["quantity"] == "no_load_loss" else c for c in demo.results["checks"]]
+    rows = {r.quantity: r for r in main_rows(dict(demo.results, no_load=no_load, checks=checks))}
+    assert rows["No-load loss"].checked == 2 and rows["No-load loss"].at_reference == "240.2"

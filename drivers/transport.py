@@ -96,7 +96,6 @@ class PyvisaTransport:
         self.resource = resource
         self.name = name or resource
         self._timeout_ms = max(1, round(timeout_s * 1000))
-        self._own_rm = rm is None
         self._rm = rm
         self._res: Any = None
         self._closed = False
@@ -198,14 +197,10 @@ class PyvisaTransport:
                 pass  # the session is being abandoned; nothing more can go wrong on it
 
     def close(self) -> None:
+        # Only the session: pyvisa hands every caller the same ResourceManager per library, so
+        # closing it would close the other instruments' sessions too.
         self._closed = True
         self._drop()
-        if self._own_rm and self._rm is not None:
-            try:
-                self._rm.close()
-            except _MAPPED:
-                pass
-            self._rm = None
 
 
 Handler = Callable[[str], "str | None"]

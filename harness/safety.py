@@ -65,7 +65,8 @@ class Supervisor:
         if not math.isfinite(volts) or volts < 0:
             raise LimitTrip("invalid setpoint", "voltage", volts, self.limits.voltage, self.step, self.clock.now())
         if volts > self.limits.voltage:
-            raise self.trip("voltage", volts, self.limits.voltage)
+            raise LimitTrip("voltage limit: setpoint refused before it was sent", "voltage", volts,
+                            self.limits.voltage, self.step, self.clock.now())
 
     def check_reading(self, u_rms: float, u_mean: float, i_rms: float, p: float, t: float, age: float) -> None:
         """``t`` is the bay time of the reading, ``age`` how long the query took (bay s)."""

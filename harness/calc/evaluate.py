@@ -36,8 +36,9 @@ def evaluate(record: Record, loads: Sequence[float] | None = None,
     nl, ld, warnings = _tests(record, basis)
     p0 = nl.loss_W if nl is not None else None
     pk = ld.performance_loss_W if ld is not None else None
-    checks = guarantee_checks(p0, pk, ld and ld.performance_impedance_pct, nl and nl.current_pct,
-                              record.guarantees, record.tolerances)
+    z = ld.performance_impedance_pct if ld is not None else None
+    i0 = nl.current_pct if nl is not None else None
+    checks = guarantee_checks(p0, pk, z, i0, record.guarantees, record.tolerances)
     return Results(
         rated_current_A={w: basis.rated_current(w) for w in ("hv", "lv")},
         no_load=nl, load=ld, equivalent_circuit=equivalent_circuit(record, nl, ld, basis),

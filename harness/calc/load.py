@@ -112,13 +112,16 @@ def evaluate_load(test, resistances, basis: Basis) -> tuple[LoadResult, list[str
         loss_W=p_k, impedance_voltage_V=u_k, impedance_measured_pct=100 * u / basis.rated_voltage_V[test.winding],
         impedance_pct=z, resistance_pct=ur, reactance_pct=ux,
         reference_temperature_C=basis.reference_temperature_C, test_temperature_C=test.temperature,
-        i2r_loss_W=corr and corr.i2r_loss_W, additional_loss_W=corr and corr.additional_loss_W,
-        i2r_loss_ref_W=corr and corr.i2r_loss_ref_W, additional_loss_ref_W=corr and corr.additional_loss_ref_W,
-        loss_ref_W=corr and corr.loss_ref_W, resistance_ref_pct=ur_ref,
+        **_correction_fields(corr), resistance_ref_pct=ur_ref,
         impedance_ref_pct=None if ur_ref is None else math.hypot(ur_ref, ux),
         voltage_spread_pct=spread_pct(test.voltage), current_spread_pct=spread_pct(test.current),
     )
     return result, current_warnings(result, basis) + correction_warnings(result, test, resistances)
+
+
+def _correction_fields(corr: TemperatureCorrection | None) -> dict[str, float | None]:
+    names = ("i2r_loss_W", "additional_loss_W", "i2r_loss_ref_W", "additional_loss_ref_W", "loss_ref_W")
+    return {name: None if corr is None else getattr(corr, name) for name in names}
 
 
 def current_warnings(r: LoadResult, basis: Basis) -> list[str]:

@@ -12,6 +12,7 @@ import math
 import re
 from collections import deque
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Callable
 
 # Standard SCPI error codes and texts (SCPI-1999 vol. 2 ch. 21; IEEE 488.2).
@@ -25,6 +26,7 @@ ERROR_TEXTS: dict[int, str] = {
     -350: "Queue overflow", -410: "Query INTERRUPTED", -420: "Query UNTERMINATED",
 }
 
+RESOLVED_CACHE = 1024
 OVERLOAD = 9.9e37
 NOT_A_NUMBER = 9.91e37
 
@@ -153,6 +155,11 @@ def parse_choice(text: str, choices: tuple[str, ...]) -> str:
 
 def parse_channels(text: str, valid: range) -> list[int]:
     """A channel list ``(@1)``, ``(@1,2,3)`` or ``(@1:3)``."""
+    return list(_channels(text.strip(), valid))
+
+
+@lru_cache(maxsize=256)
+def _channels(text: str, valid: range) -> tuple[int, ...]:
     m = re.fullmatch(r"\(@([\d,:\s]+)\)", text.strip())
     if not m:
         raise ScpiError(-104, f"expected a channel list like (@1), got {text.strip()!r}")
@@ -165,7 +172,7 @@ def parse_channels(text: str, valid: range) -> list[int]:
     bad = [c for c in channels if c not in valid]
     if bad or not channels:
         raise ScpiError(-222, f"channel {bad[0] if bad else '?'} does not exist")
-    return channels
+    return tuple(channels)
 
 
 def format_number(value: float) -> str:
@@ -179,6 +186,13 @@ def format_number(value: float) -> str:
 
 def split_units(message: str) -> list[str]:
     """Split a program message on ``;`` outside quotes and parentheses."""
+    if '"' not in message and "'" not in message and "(" not in message:
+        return message.split(";")
+    return list(_split_units(message))
+
+
+@lru_cache(maxsize=512)
+def _split_units(message: str) -> tuple[str, ...]:
     units, depth, quote, start = [], 0, "", 0
     for i, ch in enumerate(message):
         if quote:
@@ -193,7 +207,7 @@ def split_units(message: str) -> list[str]:
             units.append(message[start:i])
             start = i + 1
     units.append(message[start:])
-    return units
+    return tuple(units)
 
 
 def split_params(text: str) -> list[str]:
@@ -273,11 +287,13 @@ class CommandTree:
         self.identity = identity
         self.status = StatusModel()
         self._commands: list[Command] = []
+        self._resolved: dict[tuple, tuple[Command, list[str]]] = {}
         self._reset = reset
         self._common: dict[str, tuple[Setter | None, Getter | None]] = self._common_commands()
 
     def add(self, pattern: str, setter: Setter | None = None, getter: Getter | None = None) -> None:
         self._commands.append(Command(pattern, compile_pattern(pattern), setter, getter))
+        self._resolved.clear()
 
     def execute(self, message: str) -> str | None:
         """Run one program message; the joined replies of its queries, or None if none."""
@@ -295,13 +311,13 @@ class CommandTree:
     def _unit(self, unit: str, path: list[str], replies: list[str]) -> list[str]:
         if not unit:
             return path
-        header, rest = _split_header(unit)
-        params = split_params(rest)
-        if header.startswith("*"):
+        header, fixed_params, fixed_words = parse_unit(unit)
+        params = list(fixed_params)
+        if fixed_words is None:
             self._run_common(header, params, replies)
             return path
         is_query = header.endswith("?")
-        words = _words(header.rstrip("?"))
+        words = list(fixed_words)
         if header.startswith(":"):
             path = []
         command, used = self._find(path + words, words)
@@ -309,6 +325,16 @@ class CommandTree:
         return used[:-1]
 
     def _find(self, candidate: list[str], words: list[str]) -> tuple[Command, list[str]]:
+        # Instruments see the same few headers over and over: resolve each spelling once.
+        key = (tuple(candidate), tuple(words))
+        hit = self._resolved.get(key)
+        if hit is None:
+            hit = self._search(candidate, words)
+            if len(self._resolved) < RESOLVED_CACHE:
+                self._resolved[key] = hit
+        return hit[0], list(hit[1])
+
+    def _search(self, candidate: list[str], words: list[str]) -> tuple[Command, list[str]]:
         for attempt in (candidate, words):
             for command in self._commands:
                 if match_nodes(attempt, command.nodes):
@@ -355,6 +381,14 @@ class CommandTree:
     def _read_esr(self) -> int:
         value, self.status.esr = self.status.esr, 0
         return value
+
+
+@lru_cache(maxsize=2048)
+def parse_unit(unit: str) -> tuple[str, tuple[str, ...], tuple[str, ...] | None]:
+    """(header, parameters, header words or None for a common command), parsed once per text."""
+    header, rest = _split_header(unit)
+    words = None if header.startswith("*") else tuple(_words(header.rstrip("?")))
+    return header, tuple(split_params(rest)), words
 
 
 def _split_header(unit: str) -> tuple[str, str]:

@@ -18,12 +18,9 @@ from harness.calc.standards import CONSTANTS, material_constant
 from ._records import reading, single_phase, three_phase
 
 
-def _no_load_record(standard: str = "iec", u_rms: str = "396 V", u_mean: str | None = "400 V", **extra):
-    no_load = reading("lv", u_rms, "1.5 A", "200 W", **extra)
-    if u_mean is not None:
-        no_load["voltage_mean"] = u_mean
-    return single_phase("100 kVA", "10 kV", "400 V", no_load=no_load, standard=standard,
-                        **({"waveform": extra.pop("waveform")} if "waveform" in extra else {}))
+def _no_load_record(standard: str = "iec", u_rms: str = "396 V"):
+    no_load = reading("lv", u_rms, "1.5 A", "200 W", voltage_mean="400 V")
+    return single_phase("100 kVA", "10 kV", "400 V", no_load=no_load, standard=standard)
 
 
 def test_iec_waveform_correction_p0_equals_pm_times_1_plus_d():
@@ -164,11 +161,9 @@ def test_three_phase_i2r_from_line_to_line_resistances(connection):
     assert evaluate(record).load.i2r_loss_W == pytest.approx(3 * i_ph**2 * r_ph + lv_star, rel=1e-9)
 
 
-def _checks(p0="200 W", pk="1 kW", **guarantees):
-    record = single_phase("100 kVA", "10 kV", "400 V", guarantees=guarantees,
-                          no_load=reading("lv", "400 V", "1.5 A", p0),
-                          load=reading("hv", "400 V", "10 A", pk), **({"tolerances": guarantees.pop("tol")}
-                                                                      if "tol" in guarantees else {}))
+def _checks(p0="200 W", pk="1 kW", tolerances=None, **guarantees):
+    record = single_phase("100 kVA", "10 kV", "400 V", guarantees=guarantees, tolerances=tolerances,
+                          no_load=reading("lv", "400 V", "1.5 A", p0), load=reading("hv", "400 V", "10 A", pk))
     return {c.quantity: c for c in evaluate(record).checks}
 
 
@@ -207,6 +202,6 @@ def test_table_1_no_load_current_plus_30_pct():
 
 
 def test_tolerances_overridden_by_the_record():
-    checks = _checks(no_load_loss="180 W", impedance="4 %", tol={"no_load_loss": "10 %", "impedance": "5 %"})
+    checks = _checks(no_load_loss="180 W", impedance="4 %", tolerances={"no_load_loss": "10 %", "impedance": "5 %"})
     assert checks["no_load_loss"].limit == pytest.approx(198.0)
     assert checks["impedance"].limit == pytest.approx((3.8, 4.2))

@@ -48,6 +48,7 @@ class LineServer:
         self.sock.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
         self.sock.bind(("127.0.0.1", 0))
         self.sock.listen()
+        self.sock.settimeout(0.05)
         self.port = self.sock.getsockname()[1]
         self.connections: list[socket.socket] = []
         self.received: list[tuple[int, bytes]] = []
@@ -60,7 +61,6 @@ class LineServer:
         return f"TCPIP0::127.0.0.1::{self.port}::SOCKET"
 
     def _accept(self) -> None:
-        self.sock.settimeout(0.05)
         while not self._stop.is_set():
             try:
                 conn, _ = self.sock.accept()

@@ -221,6 +221,17 @@ def test_closed_transport_refuses_work(line_server) -> None:
         transport.query("*OPC?")
 
 
+def test_closing_one_transport_leaves_the_others_open(line_server) -> None:
+    server = line_server(lambda conn, line: b"1\n")
+    first = PyvisaTransport(server.resource, timeout_s=0.5, name="source")
+    second = PyvisaTransport(server.resource, timeout_s=0.5, name="analyser")
+    try:
+        first.close()
+        assert second.query("*OPC?") == "1"
+    finally:
+        second.close()
+
+
 def test_timeout_must_be_positive() -> None:
     with pytest.raises(ValueError, match="positive"):
         PyvisaTransport("TCPIP0::127.0.0.1::5025::SOCKET", rm=_StubManager(OSError()), timeout_s=0)

@@ -136,6 +136,7 @@ def test_tripped_banner_says_what_when_value_and_limit(tripped_html):
     assert "When: 2026-11-18 09:12:42 UTC" in text
     assert "current 4.12 A against the limit 4 A" in text
     assert tripped_html.index('class="banner') < tripped_html.index('id="cautions"')
+    assert ">trip</text>" in tripped_html  # the trip is marked on the ramp it stopped
 
 
 def test_unsafe_banner_says_the_bay_may_be_live():

@@ -8,7 +8,7 @@ import sys
 from pathlib import Path
 from typing import Any, Callable
 
-from harness.common.errors import HarnessError, InputError
+from harness.common.errors import HarnessError, InputError, UsageError
 
 
 def _floats(text: str) -> list[float]:
@@ -121,9 +121,9 @@ def _check_faults(options: Any) -> None:
     from harness.sim.faults import FAULTS
     for name in options.faults:
         if name not in FAULTS:
-            raise InputError(f"unknown fault '{name}'; known: {', '.join(sorted(FAULTS))}", "--fault", 0, 0)
+            raise UsageError(f"--fault: unknown fault '{name}'; known: {', '.join(sorted(FAULTS))}")
     if options.faults and options.station is not None:
-        raise InputError("--fault injects into the built-in simulated bay; drop --station", "--fault", 0, 0)
+        raise UsageError("--fault injects into the built-in simulated bay; drop --station")
 
 
 def cmd_check(args: argparse.Namespace) -> int:
@@ -137,7 +137,10 @@ def cmd_check(args: argparse.Namespace) -> int:
 def cmd_evaluate(args: argparse.Namespace) -> int:
     from harness.calc import evaluate, load_record
     record = load_record(args.record)
-    results = evaluate(record, loads=args.load, power_factors=args.pf)
+    try:
+        results = evaluate(record, loads=args.load, power_factors=args.pf)
+    except ValueError as exc:
+        raise UsageError(f"--load/--pf: {exc}") from exc
     if args.html:
         from harness.runner.reporting import write_evaluation_report
         write_evaluation_report(args.record, record, results, args.html)

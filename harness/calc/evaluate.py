@@ -25,9 +25,12 @@ MAX_LOAD_PU = 3.0
 
 def evaluate(record: Record, loads: Sequence[float] | None = None,
              power_factors: Sequence[float] | None = None) -> Results:
-    """Evaluate ``record``; ``loads`` (pu) and ``power_factors`` override the default tables.
+    """Evaluate ``record`` into the results.
 
-    Raises ``ValueError`` with a sentence for an unusable load or power factor.
+    ``loads`` (pu) replace the loads of the efficiency table and of the regulation table (default
+    0.25 ... 1.25 pu and 1.0 pu); ``power_factors`` replace the power factors of both (default 1.0
+    and 0.8; every power factor below 1 gives a lagging and a leading regulation row). Raises
+    ``ValueError`` with a sentence for an unusable load or power factor.
     """
     eff_loads = checked_loads(loads) if loads is not None else DEFAULT_LOADS
     reg_loads = eff_loads if loads is not None else DEFAULT_REGULATION_LOADS

@@ -95,7 +95,11 @@ def _limit(limit: Any) -> str:
 
 def render_results(results: Results, console: Console) -> None:
     """Print every part of the results that the evaluation produced, then the warnings."""
-    data = results.to_dict()
+    render_results_dict(results.to_dict(), console)
+
+
+def render_results_dict(data: dict[str, Any], console: Console) -> None:
+    """The same from the results contract as plain data (as stored with a run)."""
     rated = data["rated_current_A"]
     console.print(f"Rated current: hv {fmt(rated['hv'])} A, lv {fmt(rated['lv'])} A")
     tables = [_section("No-load test", data["no_load"], _NO_LOAD_ROWS),

@@ -34,3 +34,7 @@ class InputErrors(InputError):
 
     def __str__(self) -> str:
         return "\n".join(str(e) for e in self.errors)
+
+
+class UsageError(HarnessError):
+    """A command-line option that cannot be used as given (no file position to point at)."""

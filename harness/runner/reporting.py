@@ -27,18 +27,28 @@ def run_bundle(store: Any, run_id: str) -> ReportBundle:
     sequence = _yaml(row.get("sequence_text"))
     events = store.events(run_id)
     results = row.get("results") or {}
+    steps = store.steps(run_id)
+    labels = {st["step_index"]: f"{st['step_index'] + 1}: {st['name']}" for st in steps}
     return ReportBundle(
         run=_run_meta(row, sequence),
         unit=unit_of(sequence),
         instruments=[_instrument(i) for i in store.instruments(run_id)],
         results=results,
-        readings=[_reading(r) for r in store.readings(run_id)],
-        traces=_traces(store.samples(run_id), store.steps(run_id), events),
+        readings=[_reading(r, labels) for r in store.readings(run_id)],
+        traces=_traces(store.samples(run_id), steps, events, labels),
         sweep=list(results.get("sweep", [])),
         events=[_event(e) for e in events if e["kind"] not in ("step-start", "step-end")],
         warnings=list(results.get("warnings", [])) or [e["text"] for e in events if e["kind"] == "warning"],
-        trip=row.get("trip"),
+        trip=_trip(row.get("trip"), steps, labels),
     )
+
+
+def _trip(trip: dict[str, Any] | None, steps: list[dict[str, Any]], labels: dict[int, str]) -> dict[str, Any] | None:
+    """The trip with its step named as the traces name it, and its bay time on their axis."""
+    if not trip:
+        return trip
+    named = [st["step_index"] for st in steps if st["name"] == trip.get("step")]
+    return {**trip, "step": labels[named[-1]] if named else trip.get("step"), "t_s": trip.get("time")}
 
 
 def _yaml(text: str | None) -> dict[str, Any]:
@@ -79,14 +89,15 @@ def _instrument(row: dict[str, Any]) -> dict[str, Any]:
             "resource": row.get("resource"), "profile": row.get("profile"), "calibration_due": row.get("calibration_due")}
 
 
-def _reading(row: dict[str, Any]) -> dict[str, Any]:
+def _reading(row: dict[str, Any], labels: dict[int, str]) -> dict[str, Any]:
     quantities = ("u_rms", "u_mean", "i_rms", "p")
-    return {"tag": row["tag"], "step": row["step_index"], "count": row["count"],
+    return {"tag": row["tag"], "step": labels.get(row["step_index"], row["step_index"]), "count": row["count"],
             "mean": {q: row.get(f"{q}_mean") for q in quantities},
             "std": {q: row.get(f"{q}_std") for q in quantities}, "stable": bool(row["stable"])}
 
 
-def _traces(samples: dict[str, Any], steps: list[dict[str, Any]], events: list[dict[str, Any]]) -> list[dict[str, Any]]:
+def _traces(samples: dict[str, Any], steps: list[dict[str, Any]], events: list[dict[str, Any]],
+            labels: dict[int, str]) -> list[dict[str, Any]]:
     limits = {e["data"]["step"]: e["data"]["limits"] for e in events
               if e["kind"] == "step-start" and isinstance(e.get("data"), dict)}
     traces = []
@@ -100,7 +111,7 @@ def _traces(samples: dict[str, Any], steps: list[dict[str, Any]], events: list[d
         mask = index == n
         if not mask.any():
             continue
-        traces.append({"step": f"{n + 1}: {step['name']}", "tag": step["kind"],
+        traces.append({"step": labels[n], "tag": step["kind"],
                        "t_s": samples["t"][mask].tolist(), "u_V": samples["u_rms"][mask].tolist(),
                        "i_A": samples["i_rms"][mask].tolist(), "p_W": samples["p"][mask].tolist(),
                        "limits": limits.get(n, {})})
@@ -124,7 +135,7 @@ def write_evaluation_report(path: Path, record: Any, results: Any, html: Path) -
              "standard": data.get("standard", "iec")},
         unit=unit_of(data), results=results.to_dict(), warnings=list(results.to_dict().get("warnings", [])))
     html = Path(html)
-    html.parent.mkdir(parents=True, exist_ok=True)
-    from harness.report import render_html
-    html.write_text(render_html(bundle), encoding="utf-8")
+    paths = write_reports(html.parent, bundle)
+    if Path(paths["html"]) != html:
+        Path(paths["html"]).replace(html)
     return html

@@ -6,7 +6,6 @@ numbers. Values take units ("6.6 kV", "4.85 ohm", "30 min"); plain numbers are S
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 from typing import Literal
 

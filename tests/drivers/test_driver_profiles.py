@@ -32,6 +32,13 @@ def test_every_shipped_profile_loads_for_its_kind() -> None:
         assert load_profile(name, kind).name == name
 
 
+def test_each_command_set_describes_every_field() -> None:
+    from drivers.profile import PROFILE_MODELS
+    for model in PROFILE_MODELS.values():
+        commands = model.model_fields["commands"].annotation
+        assert set(commands.SPECS) == set(commands.model_fields)
+
+
 def test_generic_commands_are_the_agreed_scpi_forms() -> None:
     source = load_profile("generic", "ac_source")
     assert source.command("set_voltage") == "SOURce:VOLTage {value}"

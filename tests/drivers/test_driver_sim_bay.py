@@ -7,12 +7,12 @@ above real time.
 
 from __future__ import annotations
 
-import time
+import math
 from typing import Iterator
 
 import pytest
 
-from drivers import (AcSource, ConnectionLost, InstrumentReportedError, InstrumentTimeout, OverRange, PowerAnalyser,
+from drivers import (AcSource, ChannelReading, ConnectionLost, InstrumentReportedError, InstrumentTimeout, OverRange, PowerAnalyser,
                      ProtocolError, ScpiInstrument, open_instrument)
 from harness.common.clock import Clock
 from harness.sim.bay import Bay
@@ -24,9 +24,11 @@ TIME_SCALE = 100.0
 
 
 class BayInstruments:
-    def __init__(self, faults: tuple[FaultSpec, ...] = (), timeout_s: float = 1.0):
-        self.scenario = load_scenario("default")
-        self.bay = Bay(self.scenario, Clock(TIME_SCALE), faults)
+    def __init__(self, faults: tuple[FaultSpec, ...] = (), timeout_s: float = 1.0,
+                 scenario: str = "default", time_scale: float = TIME_SCALE):
+        self.scenario = load_scenario(scenario)
+        self.clock = Clock(time_scale)
+        self.bay = Bay(self.scenario, self.clock, faults)
         self.server = SimServer(self.bay)
         res = self.server.start()
         self.opened: list[ScpiInstrument] = []
@@ -49,7 +51,14 @@ class BayInstruments:
         self.wait_bay_seconds(volts / 100 + 2)
 
     def wait_bay_seconds(self, seconds: float) -> None:
-        time.sleep(seconds / TIME_SCALE)
+        self.clock.sleep(seconds)
+
+    def settle_at(self, volts: float) -> ChannelReading:
+        """Set the source, wait for its slew (100 V/s set by energise) and settling, then read."""
+        before = self.source.voltage_setpoint()
+        self.source.set_voltage(volts)
+        self.wait_bay_seconds(abs(volts - before) / 100 + 3)
+        return self.analyser.snapshot().channels[0]
 
     def close(self) -> None:
         for instrument in self.opened:
@@ -108,6 +117,21 @@ def test_source_and_analyser_see_the_same_voltage(bay: BayInstruments) -> None:
     assert bay.source.output_is_on() is False
 
 
+def test_short_mnemonics_reach_the_bay(bay: BayInstruments, tmp_path) -> None:
+    from drivers.profile import PROFILE_DIR
+    path = tmp_path / "short-ac-source.yaml"
+    path.write_text((PROFILE_DIR / "generic-ac-source.yaml").read_text().replace("mnemonics: long", "mnemonics: short"))
+    source = open_instrument("ac_source", bay.server.resources()["source"], path, "short source")
+    try:
+        assert source._template("set_frequency") == "SOUR:FREQ {value}"  # what goes on the wire
+        source.set_frequency(60)
+        assert source.frequency_setpoint() == 60.0
+        source.set_voltage(12.5)
+        assert bay.source.voltage_setpoint() == 12.5  # the long-form session sees the same source
+    finally:
+        source.close()
+
+
 def test_out_of_range_setting_is_reported_by_the_bay(bay: BayInstruments) -> None:
     with pytest.raises(InstrumentReportedError) as info:
         bay.analyser.set_ranges(current=10_000)
@@ -155,5 +179,70 @@ def test_dropped_connection_is_followed_by_a_fresh_session() -> None:
         assert bay.analyser.snapshot().channels[0].u_rms == pytest.approx(20, rel=0.02)
     finally:
         bay.source.set_voltage(0)
+        bay.source.set_output(False)
+        bay.close()
+
+
+# --- physics, seen through the drivers alone ---------------------------------------------------
+
+
+def test_no_load_current_rises_steeply_above_rated_voltage() -> None:
+    bay = BayInstruments(time_scale=500.0)
+    try:
+        rated = bay.scenario.transformer.lv.rated_voltage
+        bay.analyser.set_ranges(600, 20)  # past the knee the current is several times its rated value
+        bay.energise(0)
+        currents = [bay.settle_at(rated * pu).i_rms for pu in (0.9, 1.0, 1.1, 1.2)]
+        steps = [b - a for a, b in zip(currents, currents[1:])]
+        # Beyond about 1.1 pu flux the magnetising current rises steeply (common practice, no source).
+        assert steps[1] > 2 * steps[0] and steps[2] > 2 * steps[1]
+    finally:
+        bay.source.set_output(False)
+        bay.close()
+
+
+def test_load_current_is_proportional_to_voltage() -> None:
+    bay = BayInstruments(time_scale=500.0)
+    try:
+        bay.bay_control.set_wiring("hv", "short")
+        bay.analyser.set_ranges(300, 10)
+        bay.energise(0)
+        admittances = [(r.i_rms / r.u_rms) for r in (bay.settle_at(v) for v in (60.0, 120.0, 180.0))]
+        # A short-circuited unit is a linear series impedance: I/U constant (textbook relation Z = U/I).
+        assert max(admittances) / min(admittances) < 1.01
+    finally:
+        bay.source.set_output(False)
+        bay.close()
+
+
+def test_winding_warms_during_a_long_load_test() -> None:
+    bay = BayInstruments(time_scale=1000.0)
+    try:
+        tf = bay.scenario.transformer
+        rated_current = tf.rated_power / tf.hv.rated_voltage
+        bay.bay_control.set_wiring("hv", "short")
+        bay.analyser.set_ranges(600, 20)
+        bay.energise(0)
+        # Impedance voltage of a distribution unit is a few per cent (common practice, no source).
+        reading = bay.settle_at(0.03 * tf.hv.rated_voltage)
+        bay.settle_at(0.03 * tf.hv.rated_voltage * rated_current / reading.i_rms)
+        start = bay.thermometer.read(3)
+        bay.wait_bay_seconds(300)
+        assert bay.thermometer.read(3) - start > 2.0  # five bay minutes near rated current
+    finally:
+        bay.source.set_output(False)
+        bay.close()
+
+
+def test_mean_and_rms_voltage_differ_under_distortion() -> None:
+    bay = BayInstruments(scenario="aluminium-distorted", time_scale=500.0)
+    try:
+        bay.analyser.set_ranges(600, 5)
+        bay.energise(0)
+        reading = bay.settle_at(bay.scenario.transformer.lv.rated_voltage)
+        # A sine has U_mean (rms-scaled) = U_rms; harmonics make them differ (IEC 60076-1 waveform
+        # correction, recalled from memory). The scenario's supply is distorted by a few per cent.
+        assert not math.isclose(reading.u_mean, reading.u_rms, rel_tol=0.01)
+    finally:
         bay.source.set_output(False)
         bay.close()

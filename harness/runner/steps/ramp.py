@@ -15,8 +15,8 @@ from harness.runner.context import Run, Sample
 from harness.runner.steps import register
 from harness.safety import Trip
 
-SETTLED_CHANGE = 0.001     # spread of the last three applied-voltage readings that counts as settled
-K_RANGE = (0.8, 1.25)      # plausible applied/set voltage ratios; outside, a reading is mid-slew
+SETTLED_CHANGE = 0.001     # spread of the last applied-voltage readings that counts as settled
+SETTLED_READINGS = 3
 LEARN_FROM = 0.05          # learn the gain once the applied voltage passes 5 % of the goal
 
 
@@ -55,9 +55,11 @@ def ramp_to(run: Run, quantity: str, target: float, tolerance_pct: float, method
 def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> RampResult:
     start = run.clock.now()
     tol = tolerance_pct / 100 * target
+    # Until the source's own drop (output impedance, wiring) is learned from a settled reading,
+    # aim in the upper half of the tolerance band, so that the unknown drop lands inside it.
+    aim = target + tol / 2
     gain = initial_gain(run, quantity)
-    k = 1.0  # applied volts per volt of setpoint (source output impedance, wiring)
-    goal = target / gain
+    goal = aim / gain
     run.send_setpoint(min(goal * 0.5, run.supervisor.limits.voltage) if quantity == "current" else goal * 0.98)
     applied: list[float] = []
     peak = 0.0
@@ -73,23 +75,31 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
         if settled and abs(y - target) <= tol:
             run.gains[quantity] = y / s.u_rms
             return RampResult(y, run.clock.now() - start, peak)
-        if s.u_rms > LEARN_FROM * goal and y > 0:
-            gain = y / s.u_rms
-            if settled and run.setpoint > 0 and K_RANGE[0] <= s.u_rms / run.setpoint <= K_RANGE[1]:
-                k = s.u_rms / run.setpoint
-            goal = target / gain
-            wanted = goal / k
-            if _worth_sending(run.setpoint, wanted):
-                run.send_setpoint(wanted)
+        wanted = _trim(run.setpoint, y, target) if settled else _aim(s, y, aim)
+        if wanted is not None and _worth_sending(run.setpoint, wanted):
+            run.send_setpoint(wanted)
+            applied.clear()
         if run.clock.now() > deadline:
             raise Trip(f"ramp did not reach {target:.4g} within tolerance", quantity, y, target, run.step_title, run.clock.now())
 
 
+def _aim(s: Sample, y: float, aim: float) -> float | None:
+    """While the source moves: the applied voltage the learned gain (y per applied volt) asks for."""
+    if y <= 0 or s.u_rms <= 0 or s.setpoint <= 0 or s.u_rms < LEARN_FROM * s.setpoint:
+        return None
+    return aim / (y / s.u_rms)
+
+
+def _trim(setpoint: float, y: float, target: float) -> float | None:
+    """Settled but outside the band: scale the setpoint by the remaining ratio (gain and drop together)."""
+    return setpoint * target / y if y > 0 else None
+
+
 def _settled(applied: list[float]) -> bool:
-    """The last three distinct readings of the applied voltage agree within SETTLED_CHANGE."""
-    if len(applied) < 3:
+    """The last SETTLED_READINGS distinct readings of the applied voltage agree within SETTLED_CHANGE."""
+    if len(applied) < SETTLED_READINGS:
         return False
-    last = applied[-3:]
+    last = applied[-SETTLED_READINGS:]
     return (max(last) - min(last)) <= SETTLED_CHANGE * max(last)
 
 

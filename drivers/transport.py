@@ -21,7 +21,7 @@ from collections import deque
 from typing import Any, Callable, Protocol
 
 import pyvisa
-from pyvisa import constants
+from pyvisa import constants, rname
 from pyvisa.errors import InvalidSession, VisaIOError
 
 from drivers.errors import ConnectionLost, InstrumentError, InstrumentTimeout, ProtocolError
@@ -86,6 +86,13 @@ def _from_visa_code(exc: VisaIOError, name: str, command: str | None) -> Instrum
 _MAPPED = (VisaIOError, OSError, UnicodeDecodeError, InvalidSession)
 
 
+def _canonical(resource: str) -> str:
+    try:
+        return rname.to_canonical_name(resource)
+    except (ValueError, rname.InvalidResourceName):
+        return resource
+
+
 class PyvisaTransport:
     """A VISA resource opened with newline terminations (what raw-socket instruments need)."""
 
@@ -127,7 +134,7 @@ class PyvisaTransport:
         if not type(getattr(rm, "visalib", None)).__module__.startswith("pyvisa_sim"):
             return
         known = rm.list_resources("?*")  # plain list_resources() leaves out SOCKET resources
-        if self.resource not in known:
+        if _canonical(self.resource) not in {_canonical(k) for k in known}:
             raise ConnectionLost(f"the simulated library has no '{self.resource}' "
                                  f"(it has: {', '.join(known) or 'none'})", self.name, command)
 

@@ -8,11 +8,14 @@
 
 from __future__ import annotations
 
+import contextlib
 import statistics
+import subprocess
+import sys
 import tempfile
 import time
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any, Callable, Iterator
 
 import numpy as np
 
@@ -21,28 +24,24 @@ READINGS_PER_ROUND = 2000
 
 
 def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[str, Any]:
+    """The simulated bay runs in its own process, as an instrument would: the two loops then
+    share nothing but the socket, and the server's work weighs on both alike."""
     import pyvisa
 
     from drivers import open_instrument
     from harness.common.clock import Clock
     from harness.config.checks import station_limits
-    from harness.config.sim_station import ratings_of, sim_station
+    from harness.config.sim_station import sim_station
     from harness.safety import Supervisor
-    from harness.sim.bay import Bay
-    from harness.sim.scenario import load_scenario
-    from harness.sim.server import SimServer
 
-    scenario = load_scenario("default")
     clock = Clock(1.0)
-    with SimServer(Bay(scenario, clock)) as server:
-        station, _ = sim_station(server.resources(), ratings_of(scenario.source))
-        resource = server.resources()["analyser"]
-        analyser = open_instrument("power_analyser", resource, "generic-power-analyser", "analyser", timeout_s=2.0)
-        command = analyser.snapshot_command if hasattr(analyser, "snapshot_command") else None
+    with _served_bay() as resources:
+        station, _ = sim_station(resources)
+        analyser = open_instrument("power_analyser", resources["analyser"], "generic-power-analyser", "analyser")
         rm = pyvisa.ResourceManager("@py")
-        raw = rm.open_resource(resource, read_termination="\n", write_termination="\n", timeout=2000)
-        query = command or _snapshot_command()
+        raw = rm.open_resource(resources["analyser"], read_termination="\n", write_termination="\n", timeout=2000)
         supervisor = Supervisor(station_limits(station), station.readings, clock)
+        query = analyser.snapshot_command
 
         def harness_reading() -> None:
             ch = analyser.snapshot().channels[0]
@@ -60,10 +59,17 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
             "rounds": rounds, "readings_per_round": n, "target_ratio": 1.10}
 
 
-def _snapshot_command() -> str:
-    from drivers.profile import load_profile
-    profile = load_profile("generic-power-analyser", "power_analyser")
-    return profile.snapshot.query.format(channels="(@1)")
+@contextlib.contextmanager
+def _served_bay() -> Iterator[dict[str, str]]:
+    code = ("from harness.sim.server import serve_forever; from harness.sim.scenario import load_scenario; "
+            "serve_forever(load_scenario('default'))")
+    proc = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, text=True)
+    try:
+        resources = dict(proc.stdout.readline().split() for _ in range(5))  # type: ignore[union-attr]
+        yield resources
+    finally:
+        proc.terminate()
+        proc.communicate(timeout=10)
 
 
 def _interleaved(a: Callable[[], None], b: Callable[[], None], rounds: int, n: int) -> tuple[float, float]:

@@ -30,6 +30,16 @@ def test_snapshot_is_one_query_of_the_agreed_form() -> None:
     assert snapshot == Snapshot((ChannelReading(230.1, 229.5, 0.512, 38.7, 50.0),), "230.1;229.5;0.512;38.7;50.0")
 
 
+def test_readings_are_immutable() -> None:
+    import dataclasses
+    reading = ChannelReading(1.0, 2.0, 3.0, 4.0, 5.0)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        reading.p = 9.0  # type: ignore[misc]
+    assert (reading.u_rms, reading.u_mean, reading.i_rms, reading.p, reading.freq) == (1.0, 2.0, 3.0, 4.0, 5.0)
+    assert reading == ChannelReading(1.0, 2.0, 3.0, 4.0, 5.0) and hash(reading) == hash(ChannelReading(1.0, 2.0, 3.0, 4.0, 5.0))
+    assert not hasattr(reading, "__dict__")
+
+
 def test_three_channels_by_quantity() -> None:
     reply = "230.1,230.4,229.9;229.5,229.9,229.4;0.512,0.498,0.505;38.7,37.9,38.2;50,50,50"
     analyser, fake = _analyser(reply, channels=(1, 2, 3))

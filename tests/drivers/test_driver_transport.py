@@ -117,6 +117,14 @@ def test_mistyped_simulated_resource_is_refused_at_open(sim_rm) -> None:
         PyvisaTransport("TCPIP0::sim-thermometr::5025::SOCKET", rm=sim_rm("generic-thermometer"), name="t")
 
 
+def test_simulated_resource_in_another_spelling_is_accepted(sim_rm) -> None:
+    transport = PyvisaTransport("TCPIP::sim-thermometer::5025::SOCKET", rm=sim_rm("generic-thermometer"), name="t")
+    try:
+        assert transport.query("*OPC?") == "1"
+    finally:
+        transport.close()
+
+
 def test_invalid_resource_name_with_pyvisa_py() -> None:
     with pytest.raises(ConnectionLost, match="cannot open|not a VISA resource name"):
         PyvisaTransport("no such thing", name="thermometer")

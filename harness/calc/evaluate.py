@@ -9,13 +9,14 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from harness.calc import circuit, performance
+from harness.calc import circuit, performance, uncertainty
 from harness.calc.basis import Basis, basis_of
+from harness.calc.corrections import corrected_record
 from harness.calc.load import LoadResult, evaluate_load
 from harness.calc.no_load import NoLoadResult, evaluate_no_load, shunt, waveform_settings
 from harness.calc.record import Record
 from harness.calc.results import Branches, EfficiencyRow, MaxEfficiency, RegulationRow, Results
-from harness.calc.tolerances import guarantee_checks
+from harness.calc.tolerances import flag_uncertain, guarantee_checks
 
 DEFAULT_LOADS = (0.25, 0.5, 0.75, 1.0, 1.25)
 DEFAULT_POWER_FACTORS = (1.0, 0.8)
@@ -35,13 +36,16 @@ def evaluate(record: Record, loads: Sequence[float] | None = None,
     eff_loads = checked_loads(loads) if loads is not None else DEFAULT_LOADS
     reg_loads = eff_loads if loads is not None else DEFAULT_REGULATION_LOADS
     pfs = checked_power_factors(power_factors) if power_factors is not None else DEFAULT_POWER_FACTORS
+    budgets, u_warnings = uncertainty.uncertainty(record)
+    record, corrections = corrected_record(record)
     basis = basis_of(record)
     nl, ld, warnings = _tests(record, basis)
     p0 = nl.loss_W if nl is not None else None
     pk = ld.performance_loss_W if ld is not None else None
     z = ld.performance_impedance_pct if ld is not None else None
     i0 = nl.current_pct if nl is not None else None
-    checks = guarantee_checks(p0, pk, z, i0, record.guarantees, record.tolerances)
+    checks = flag_uncertain(guarantee_checks(p0, pk, z, i0, record.guarantees, record.tolerances),
+                            {q: b.expanded for q, b in budgets.items()})
     return Results(
         rated_current_A={w: basis.rated_current(w) for w in ("hv", "lv")},
         no_load=nl, load=ld, equivalent_circuit=equivalent_circuit(record, nl, ld, basis),
@@ -49,7 +53,9 @@ def evaluate(record: Record, loads: Sequence[float] | None = None,
         max_efficiency=max_efficiency(record, basis, p0, pk),
         regulation=regulation_table(reg_loads, pfs, ld),
         checks=tuple(checks),
-        warnings=tuple(warnings + skipped_guarantee_warnings(record)),
+        warnings=tuple(warnings + u_warnings + skipped_guarantee_warnings(record) + uncertain_check_warnings(checks)),
+        corrections=corrections,
+        uncertainty=budgets,
     )
 
 
@@ -147,3 +153,10 @@ def skipped_guarantee_warnings(record: Record) -> list[str]:
         skipped.append("total_loss")
     return [f"The guaranteed {name.replace('_', ' ')} is not checked: the record lacks the test it needs."
             for name in skipped]
+
+
+def uncertain_check_warnings(checks) -> list[str]:
+    return [f"The {c.quantity.replace('_', ' ')} check is uncertain: {c.value:.5g} {c.unit} lies within its "
+            f"expanded uncertainty (+/- {c.expanded_uncertainty:.3g} {c.unit}, k = 2) of the limit, so the verdict "
+            f"{'PASS' if c.passed else 'FAIL'} could flip."
+            for c in checks if c.uncertain]

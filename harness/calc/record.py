@@ -15,9 +15,11 @@ from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validat
 from pydantic_core import InitErrorDetails, PydanticCustomError, ValidationError
 
 from harness.calc import plausibility
+from harness.calc.chain import MeasurementChain
 from harness.calc.phases import PhaseCurrent, PhaseResistance, PhaseValue, PhaseVoltage, values_of
 from harness.common import yamlio
-from harness.common.units import ApparentPower, Duration, Frequency, Percent, Power, Temperature, Voltage
+from harness.common.units import (ApparentPower, Current, Duration, Frequency, Percent, Power, Temperature,
+                                  Voltage)
 
 RECORD_SPEC = 1
 
@@ -72,6 +74,31 @@ class Transformer(_Model):
         return self
 
 
+def _not_negative(value: PhaseValue) -> PhaseValue:
+    if any(v < 0 for v in values_of(value)):
+        raise ValueError("a standard deviation cannot be negative")
+    return value
+
+
+class Samples(_Model):
+    """Statistics of the raw samples behind an averaged reading: the type A evaluation (GUM 4.2).
+
+    ``*_sd`` are experimental standard deviations of the single samples (not of their mean), in
+    the units of the reading; the standard uncertainty of the mean is ``sd / sqrt(count)``.
+    """
+    count: int = Field(ge=2, description="number of raw samples averaged")
+    voltage_sd: Annotated[PhaseVoltage, AfterValidator(_not_negative)] | None = None
+    voltage_mean_sd: Annotated[PhaseVoltage, AfterValidator(_not_negative)] | None = None
+    current_sd: Annotated[PhaseCurrent, AfterValidator(_not_negative)] | None = None
+    power_sd: Annotated[Power, AfterValidator(_not_negative)] | None = None
+
+
+class AnalyserRanges(_Model):
+    """The analyser input ranges in use (secondary side), for the % of range part of its accuracy."""
+    voltage: Annotated[Voltage, AfterValidator(_positive)]
+    current: Annotated[Current, AfterValidator(_positive)]
+
+
 class NoLoadTest(_Model):
     """Open-circuit test: one winding energised at rated voltage, the other open."""
     winding: WindingName = Field(description="the energised winding")
@@ -80,6 +107,8 @@ class NoLoadTest(_Model):
     current: LineCurrents = Field(description="three-phase: line currents, mean or list of three")
     power: PositivePower = Field(description="three-phase: total")
     temperature: TestTemperature | None = Field(None, description="core/oil temperature (IEEE corrects to 20 degC)")
+    samples: Samples | None = Field(None, description="raw-sample statistics (type A uncertainty)")
+    analyser_ranges: AnalyserRanges | None = None
 
 
 class LoadTest(_Model):
@@ -89,6 +118,8 @@ class LoadTest(_Model):
     current: LineCurrents
     power: PositivePower
     temperature: TestTemperature | None = Field(None, description="mean winding temperature during the test")
+    samples: Samples | None = Field(None, description="raw-sample statistics (type A uncertainty)")
+    analyser_ranges: AnalyserRanges | None = None
 
 
 class Resistance(_Model):
@@ -152,11 +183,22 @@ class Record(_Model):
     tolerances: Tolerances | None = None
     load_profile: list[LoadBlock] | None = Field(None, min_length=1, description="24 hours of load")
     waveform: Waveform | None = None
+    measurement_chain: MeasurementChain | None = Field(
+        None, description="instrument transformers, analyser, resistance meter and thermometer: corrections and "
+                          "uncertainty")
 
     @model_validator(mode="after")
     def _plausible(self) -> Record:
-        _raise(plausibility.record_problems(self))
+        _raise(plausibility.record_problems(self) + _chain_problems(self))
         return self
+
+
+def _chain_problems(r: Record) -> list[tuple[tuple[Any, ...], str, Any]]:
+    chain = r.measurement_chain
+    if chain is None or len(chain.channels) >= r.transformer.phases:
+        return []
+    return [(("measurement_chain", "channels"), f"a three-phase unit is measured on three analyser channels; "
+             f"the chain gives {len(chain.channels)}", len(chain.channels))]
 
 
 def _raise(problems: list[tuple[tuple[Any, ...], str, Any]]) -> None:

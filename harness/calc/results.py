@@ -10,9 +10,10 @@ from typing import Any
 from harness.calc.load import LoadResult
 from harness.calc.no_load import NoLoadResult
 from harness.calc.tolerances import Check
+from harness.calc.uncertainty import Budget
 
 CONTRACT_KEYS = ("rated_current_A", "no_load", "load", "equivalent_circuit", "efficiency", "max_efficiency",
-                 "regulation", "checks", "warnings")
+                 "regulation", "checks", "warnings", "corrections", "uncertainty")
 
 
 @dataclass(frozen=True)
@@ -64,6 +65,10 @@ class Results:
     regulation: tuple[RegulationRow, ...]
     checks: tuple[Check, ...]
     warnings: tuple[str, ...]
+    corrections: dict[str, dict[str, float]] | None = None
+    """What the measurement-chain corrections did, per test (None without a chain)."""
+    uncertainty: dict[str, Budget] = dataclasses.field(default_factory=dict)
+    """Per quantity key (no_load_loss_W, load_loss_ref_W, ...), empty without a chain."""
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready data with exactly the contract keys (non-finite numbers become None)."""
@@ -77,6 +82,8 @@ class Results:
             "regulation": [_plain(row) for row in self.regulation],
             "checks": [c.to_dict() for c in self.checks],
             "warnings": list(self.warnings),
+            "corrections": self.corrections,
+            "uncertainty": {q: b.to_dict() for q, b in self.uncertainty.items()},
         }
         return _finite(data)
 

@@ -85,8 +85,41 @@ def _regulation(data: dict[str, Any]) -> Table:
 
 def _checks(data: dict[str, Any]) -> Table:
     rows = [(c["quantity"].replace("_", " "), c["value"], c["guaranteed"], _limit(c["limit"]), c["unit"],
-             "PASS" if c["passed"] else "FAIL") for c in data["checks"]]
+             _verdict(c)) for c in data["checks"]]
     return _table("Checks against guarantees", ("quantity", "value", "guaranteed", "limit", "unit", "verdict"), rows)
+
+
+def _verdict(check: dict[str, Any]) -> str:
+    verdict = "PASS" if check["passed"] else "FAIL"
+    return f"{verdict} (uncertain)" if check.get("uncertain") else verdict
+
+
+_UNCERTAINTY_LABELS = {"no_load_loss_W": ("No-load loss", "W"), "no_load_current_pct": ("No-load current", "%"),
+                       "load_loss_ref_W": ("Load loss at reference temperature", "W"),
+                       "load_loss_W": ("Load loss at rated current", "W"), "total_loss_W": ("Total losses", "W"),
+                       "impedance_ref_pct": ("Impedance at reference temperature", "%"),
+                       "impedance_pct": ("Impedance at rated current", "%")}
+
+
+def _uncertainty(data: dict[str, Any]) -> Table:
+    rows = []
+    for key, u in data["uncertainty"].items():
+        label, unit = _UNCERTAINTY_LABELS.get(key, (key, ""))
+        top = u["budget"][0] if u["budget"] else None
+        largest = f"{top['source']} ({top['share_pct']:.0f} %)" if top else "-"
+        rows.append((label, u["value"], f"± {u['expanded']:.3g}", unit, f"{u['relative_expanded_pct']:.3g}", largest))
+    return _table("Corrected values and expanded uncertainties (k = 2)",
+                  ("quantity", "value", "U", "unit", "U, %", "largest contributor"), rows)
+
+
+def _corrections(data: dict[str, Any]) -> Table:
+    keys = (("voltage_ratio_correction_factor", "voltage ratio correction"),
+            ("current_ratio_correction_factor", "current ratio correction"),
+            ("net_phase_displacement_rad", "net phase displacement, rad"), ("power_read_W", "power read, W"),
+            ("power_corrected_W", "power corrected, W"), ("power_correction_pct", "power correction, %"))
+    tests = [t for t in ("no_load", "load") if t in data["corrections"]]
+    rows = [(label, *(data["corrections"][t][k] for t in tests)) for k, label in keys]
+    return _table("Measurement-chain corrections", ("", *(t.replace("_", "-") + " test" for t in tests)), rows)
 
 
 def _limit(limit: Any) -> str:
@@ -107,6 +140,10 @@ def render_results_dict(data: dict[str, Any], console: Console) -> None:
     tables += [t for t, present in ((_efficiency(data), data["efficiency"]),
                                     (_regulation(data), data["regulation"]), (_checks(data), data["checks"]))
                if present]
+    if data.get("corrections"):
+        tables.append(_corrections(data))
+    if data.get("uncertainty"):
+        tables.append(_uncertainty(data))
     for table in tables:
         if table is not None:
             console.print(table)

@@ -7,6 +7,8 @@ provided the total-loss tolerance is not exceeded; short-circuit impedance on th
 
 from __future__ import annotations
 
+import dataclasses
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 TOTAL_LOSS_PCT = 10.0
@@ -27,11 +29,21 @@ class Check:
     limit: float | tuple[float, float]
     passed: bool
     note: str | None = None
+    expanded_uncertainty: float | None = None
+    """U (k = 2) of the value, when the record has a measurement chain."""
+    uncertain: bool | None = None
+    """True when a limit lies within the expanded uncertainty of the value: the verdict could flip."""
 
     def to_dict(self) -> dict:
         limit = list(self.limit) if isinstance(self.limit, tuple) else self.limit
         return {"quantity": self.quantity, "value": self.value, "guaranteed": self.guaranteed, "limit": limit,
-                "passed": self.passed, "unit": self.unit, "tolerance_pct": self.tolerance_pct, "note": self.note}
+                "passed": self.passed, "unit": self.unit, "tolerance_pct": self.tolerance_pct, "note": self.note,
+                "expanded_uncertainty": self.expanded_uncertainty, "uncertain": self.uncertain}
+
+    def margin(self) -> float:
+        """Distance from the value to the nearest limit (a band has two)."""
+        limits = self.limit if isinstance(self.limit, tuple) else (self.limit,)
+        return min(abs(self.value - limit) for limit in limits)
 
 
 def tolerance(overrides, name: str, default: float) -> float:
@@ -100,3 +112,30 @@ def guarantee_checks(p0, pk, impedance_pct, current_pct, guarantees, overrides) 
     if guarantees is None:
         return []
     return loss_checks(p0, pk, guarantees, overrides) + other_checks(impedance_pct, current_pct, guarantees, overrides)
+
+
+# The uncertainty keys of each checked quantity (at reference temperature first).
+UNCERTAINTY_KEYS = {"no_load_loss": ("no_load_loss_W",), "load_loss": ("load_loss_ref_W", "load_loss_W"),
+                    "total_loss": ("total_loss_W",), "impedance": ("impedance_ref_pct", "impedance_pct"),
+                    "no_load_current": ("no_load_current_pct",)}
+
+
+def flag_uncertain(checks: list[Check], expanded: Mapping[str, float]) -> list[Check]:
+    """Mark each check whose limit lies within the expanded uncertainty of its value.
+
+    The total-loss proviso is not re-judged: a component is flagged on its own limit only.
+    """
+    flagged = []
+    for c in checks:
+        u = next((expanded[k] for k in UNCERTAINTY_KEYS.get(c.quantity, ()) if k in expanded), None)
+        flagged.append(c if u is None else _with_uncertainty(c, u))
+    return flagged
+
+
+def _with_uncertainty(c: Check, expanded: float) -> Check:
+    uncertain = c.margin() < expanded
+    note = c.note
+    if uncertain:
+        flip = "a limit lies within the expanded uncertainty of the value: the verdict could flip"
+        note = f"{note}; {flip}" if note else flip
+    return dataclasses.replace(c, expanded_uncertainty=expanded, uncertain=uncertain, note=note)

@@ -27,6 +27,23 @@ instruments:
     channels: {{ambient: 1, oil: 2, winding: 3}}
   bay_control: {{resource: "{bay_control}", profile: generic-bay-control, timeout: 0.5 s}}
 measurement: {{vt_ratio: 1, ct_ratio: 1}}
+measurement_chain:      # the simulated analyser's accuracy (sim_configs/default.yaml); no instrument
+  channels:             # transformers on the simulated bay, so ratio 1 without errors
+    - voltage_transformer: {{ratio: 1, burden: "none: direct connection"}}
+      current_transformer: {{ratio: 1, burden: "none: direct connection"}}
+    - voltage_transformer: {{ratio: 1}}
+      current_transformer: {{ratio: 1}}
+    - voltage_transformer: {{ratio: 1}}
+      current_transformer: {{ratio: 1}}
+  analyser:
+    voltage: {{reading: 0.02 %, range: 0.02 %}}
+    current: {{reading: 0.02 %, range: 0.02 %}}
+    power: {{reading: 0.03 %, range: 0.01 %}}
+    phase: 0 rad        # the simulated analyser has no phase error
+    voltage_ranges: [15 V, 30 V, 60 V, 150 V, 300 V, 600 V, 1000 V]
+    current_ranges: [0.5 A, 1 A, 2 A, 5 A, 10 A, 20 A, 50 A]
+  resistance_meter: {{reading: 0.02 %}}
+  thermometer: {{accuracy: 0.1 K}}
 limits:                 # the bay's hard limits: its source's ratings
   voltage: {max_voltage}
   current: {max_current}

@@ -11,6 +11,7 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
+from harness.calc.chain import MeasurementChain
 from harness.common.units import (Current, Duration, Power, Temperature, Voltage, VoltageRate)
 
 STATION_SPEC = 1
@@ -63,6 +64,9 @@ class StationLimits(Limits):
 
 
 class SafeState(Frozen):
+    source_watchdog: Duration | None = Field(30.0, gt=0, description=(
+        "arm the source's communication watchdog (if its profile has one): with no command this long "
+        "while on, the source itself drops to zero and off; null leaves it disarmed"))
     deenergised_voltage: Voltage = Field(5.0, gt=0, description="below this the bay counts as off")
     deenergised_current: Current = Field(0.05, gt=0)
     confirm_timeout: Duration = Field(5.0, gt=0, description="bay seconds to confirm de-energisation")
@@ -72,6 +76,8 @@ class ReadingChecks(Frozen):
     late_after: Duration = Field(1.0, gt=0, description="a snapshot slower than this is a fault (bay s)")
     stale_after: Duration = Field(5.0, gt=0, description="identical snapshots this long while energised are a fault")
     temperature_interval: Duration = Field(2.0, gt=0, description="winding temperature read this often while energised")
+    source_check_interval: Duration = Field(2.0, gt=0, description=(
+        "the source's output state is read back this often while energised (and feeds its watchdog)"))
 
 
 class Station(Frozen):
@@ -81,6 +87,8 @@ class Station(Frozen):
     simulated: bool = False
     instruments: Instruments
     measurement: MeasurementWiring = MeasurementWiring()
+    measurement_chain: MeasurementChain | None = Field(
+        None, description="instrument-transformer errors and instrument accuracy: corrections and uncertainty")
     limits: StationLimits
     safe_state: SafeState = SafeState()
     readings: ReadingChecks = ReadingChecks()
@@ -91,6 +99,21 @@ class Station(Frozen):
         if not v.strip():
             raise ValueError("must not be blank")
         return v
+
+    @model_validator(mode="after")
+    def _chain_matches_wiring(self) -> "Station":
+        """The chain's rated ratios are the ones the runner applies: two different values is a typo."""
+        if self.measurement_chain is None:
+            return self
+        m = self.measurement
+        for k, channel in enumerate(self.measurement_chain.channels, start=1):
+            for it, ratio, name in ((channel.voltage_transformer, m.vt_ratio, "vt_ratio"),
+                                    (channel.current_transformer, m.ct_ratio, "ct_ratio")):
+                given = it.ratio if it is not None else 1.0
+                if abs(given / ratio - 1) > 1e-9:
+                    raise ValueError(f"measurement_chain channel {k}: ratio {given:g} differs from "
+                                     f"measurement.{name} {ratio:g}, which the readings are scaled by")
+        return self
 
     @model_validator(mode="after")
     def _bay_control_only_simulated(self) -> "Station":

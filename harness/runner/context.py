@@ -51,6 +51,8 @@ class MeasuredReading:
     stable: bool
     winding_temperature: float | None
     target_pct: float | None = None
+    ranges: tuple[float, float] | None = None
+    """The analyser ranges requested for the reading (V, A at its inputs); it uses the smallest that holds them."""
 
 
 @dataclass
@@ -76,6 +78,7 @@ class Run:
     warnings: list[str] = field(default_factory=list)
     gains: dict[str, float] = field(default_factory=dict)
     _next_temperature_t: float = 0.0
+    _next_source_t: float = 0.0
     _ranges: tuple[float, float] = (0.0, 0.0)
     update_interval: float = 0.2
 
@@ -151,6 +154,7 @@ class Run:
         sample = Sample(sid, t1, u, um, i, p, ch.freq, self.setpoint)
         self.last_sample = sample
         self._watch_temperature(t1)
+        self._watch_source(t1)
         self.progress.sample(sample, self.supervisor.limits)
         return sample
 
@@ -161,6 +165,16 @@ class Run:
         value = self.read_temperature("winding")
         if value is not None:
             self.supervisor.check_temperature(value)
+
+    def _watch_source(self, t: float) -> None:
+        """Read the output state back now and then: it feeds the source's watchdog, and an output
+        that turned itself off (its protection or watchdog) is a fault, not a reading."""
+        if not self.energised or t < self._next_source_t:
+            return
+        self._next_source_t = t + self.station.readings.source_check_interval
+        if not self.bay.source.output_is_on():
+            raise ReadingFault("the source output turned off by itself (its protection or watchdog)",
+                               step=self.step_title, time=t)
 
     def read_temperature(self, name: str) -> float | None:
         thermometer = self.bay.thermometer

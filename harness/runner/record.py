@@ -12,13 +12,25 @@ def _last(run: Run, test: str) -> MeasuredReading | None:
     return found[-1] if found else None
 
 
+def samples_of(r: MeasuredReading, mean_value: bool) -> dict[str, Any]:
+    """The raw-sample statistics behind the reading (type A), and the analyser ranges it was read on."""
+    extra: dict[str, Any] = {}
+    if r.count >= 2:
+        extra["samples"] = {"count": r.count, "voltage_sd": r.std["u_rms"], "current_sd": r.std["i_rms"],
+                            "power_sd": r.std["p"], **({"voltage_mean_sd": r.std["u_mean"]} if mean_value else {})}
+    if r.ranges is not None:
+        extra["analyser_ranges"] = {"voltage": r.ranges[0], "current": r.ranges[1]}
+    return extra
+
+
 def no_load_section(r: MeasuredReading) -> dict[str, Any]:
     return {"winding": r.winding, "voltage": r.mean["u_rms"], "voltage_mean": r.mean["u_mean"],
-            "current": r.mean["i_rms"], "power": r.mean["p"]}
+            "current": r.mean["i_rms"], "power": r.mean["p"], **samples_of(r, True)}
 
 
 def load_section(r: MeasuredReading) -> dict[str, Any]:
-    section = {"winding": r.winding, "voltage": r.mean["u_rms"], "current": r.mean["i_rms"], "power": r.mean["p"]}
+    section = {"winding": r.winding, "voltage": r.mean["u_rms"], "current": r.mean["i_rms"], "power": r.mean["p"],
+               **samples_of(r, False)}
     if r.winding_temperature is not None:
         section["temperature"] = r.winding_temperature
     return section
@@ -37,6 +49,8 @@ def build_record(run: Run, load: MeasuredReading | None = None) -> dict[str, Any
         record["load"] = load_section(load)
     if run.resistances:
         record["winding_resistance"] = {w: {"resistance": ohm, "temperature": t} for w, (ohm, t) in run.resistances.items()}
+    if run.station.measurement_chain is not None:
+        record["measurement_chain"] = run.station.measurement_chain.model_dump(mode="json", exclude_none=True)
     for key in ("guarantees", "tolerances"):
         value = getattr(seq, key)
         if value is not None:

@@ -158,9 +158,19 @@ def _start_at_zero(run: Run) -> None:
     source.set_voltage(0.0)
     if source.output_is_on() or source.voltage_setpoint() != 0.0:
         raise Trip("the source did not confirm output off at zero volts before the run", step="start")
+    _arm_source_protection(run)
     run.update_interval = max(run.bay.analyser.averaging(), 0.05)
     run.event("ready", f"instruments identified; source output off at zero volts; analyser updates every "
                        f"{run.update_interval:g} s")
+
+
+def _arm_source_protection(run: Run) -> None:
+    """The source's own protection as a backstop below the software: its current trip at the bay's
+    hard current limit, and its communication watchdog."""
+    source, station = run.bay.source, run.station
+    source.set_current_protection(station.limits.current)
+    if station.safe_state.source_watchdog is not None and source.has_watchdog:
+        source.set_watchdog(station.safe_state.source_watchdog)
 
 
 def _trip(run: Run, exc: Trip) -> dict[str, Any]:

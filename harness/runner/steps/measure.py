@@ -39,7 +39,8 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
     if not stable:
         run.warn(f"{label}: readings not stable within {stability_pct:g} % after {max_readings} readings")
     result = MeasuredReading(test, label, run.step_index, run.fed, len(window), stats["mean"], stats["std"],
-                             stable, float(np.mean(temps[-readings:])) if temps else None, target_pct)
+                             stable, float(np.mean(temps[-readings:])) if temps else None, target_pct,
+                             run._ranges if all(run._ranges) else None)
     stored = {f"{q}_{kind}": values[q] for kind, values in (("mean", result.mean), ("std", result.std)) for q in QUANTITIES}
     run.store.add_reading(run.run_id, run.step_index, label, window[0].id, window[-1].id,
                           {**stored, "count": result.count, "stable": stable})

@@ -22,21 +22,25 @@ class Step(BaseModel):
         return self.name or self.kind  # type: ignore[attr-defined]
 
 
-class TargetStep(Step):
-    """A step that drives the source to one target on a measured quantity."""
-    voltage: Target | None = Field(None, description="'rated', '110 %' or '415 V' (no-load: mean-value voltage)")
-    current: Target | None = Field(None, description="'rated', '100 %' or '7.5 A'")
-    tolerance: Percent = Field(0.3, gt=0, le=5, description="how close the measured value must come")
+class OnQuantity(Step):
+    """A step driven on exactly one of voltage or current (the fields are the subclass's)."""
 
     @model_validator(mode="after")
-    def _one_target(self):
-        if (self.voltage is None) == (self.current is None):
+    def _exactly_one(self):
+        if (self.voltage is None) == (self.current is None):  # type: ignore[attr-defined]
             raise ValueError("give exactly one of 'voltage' or 'current'")
         return self
 
     @property
     def quantity(self) -> str:
-        return "voltage" if self.voltage is not None else "current"
+        return "voltage" if self.voltage is not None else "current"  # type: ignore[attr-defined]
+
+
+class TargetStep(OnQuantity):
+    """A step that drives the source to one target on a measured quantity."""
+    voltage: Target | None = Field(None, description="'rated', '110 %' or '415 V' (no-load: mean-value voltage)")
+    current: Target | None = Field(None, description="'rated', '100 %' or '7.5 A'")
+    tolerance: Percent = Field(0.3, gt=0, le=5, description="how close the measured value must come")
 
     @property
     def target(self) -> Target:
@@ -68,7 +72,7 @@ class Measure(Step):
         return self
 
 
-class Sweep(Step):
+class Sweep(OnQuantity):
     kind: Literal["sweep"]
     voltage: list[Target] | None = Field(None, min_length=1)
     current: list[Target] | None = Field(None, min_length=1)
@@ -77,16 +81,6 @@ class Sweep(Step):
     interval: Duration = Field(1.0, gt=0)
     stability: Percent = Field(1.0, gt=0)
     test: Test = "no-load"
-
-    @model_validator(mode="after")
-    def _one_list(self):
-        if (self.voltage is None) == (self.current is None):
-            raise ValueError("give exactly one of 'voltage' or 'current' (a list of targets)")
-        return self
-
-    @property
-    def quantity(self) -> str:
-        return "voltage" if self.voltage is not None else "current"
 
     @property
     def targets(self) -> list[Target]:

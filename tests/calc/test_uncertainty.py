@@ -142,3 +142,17 @@ def test_the_terminal_table_names_the_largest_contributor():
     assert "expanded uncertainties (k = 2)" in text and "largest contributor" in text
     assert data["uncertainty"]["load_loss_W"]["largest_contributor"] == "CT ch 1 phase displacement"
     assert "CT ch 1 phase displacement" in text
+
+
+def test_harness_evaluate_prints_corrected_losses_and_their_uncertainty():
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+    root = Path(__file__).resolve().parents[2]
+    record = root / "sequences" / "records" / "three_phase_with_measurement_chain.yaml"
+    proc = subprocess.run([sys.executable, "-m", "harness.cli", "evaluate", str(record)], capture_output=True,
+                          text=True, cwd=root, env={**os.environ, "COLUMNS": "200"}, timeout=60)
+    assert proc.returncode == 0, proc.stderr
+    assert "Measurement-chain corrections" in proc.stdout and "largest contributor" in proc.stdout
+    assert "PASS (uncertain)" in proc.stdout and "could flip" in proc.stdout

@@ -11,6 +11,7 @@ from typing import Any
 
 from rich.console import Console
 from rich.live import Live
+from rich.markup import escape
 from rich.table import Table
 
 REFRESH_S = 0.1
@@ -37,16 +38,17 @@ class Progress:
             self.live = None
 
     def step(self, index: int, kind: str, title: str) -> None:
-        self._step, self._stage = f"step {index + 1}: {title}", ""
+        self._step, self._stage = escape(f"step {index + 1}: {title}"), ""
         self._print(f"[bold]{self._step}[/bold]")
 
     def stage(self, text: str, done: float, total: float) -> None:
         pct = 100 * done / total if total else 0
-        self._stage = f"{text}  [{'#' * int(pct / 5):<20}] {pct:3.0f} %"
+        self._stage = escape(f"{text}  [{'#' * int(pct / 5):<20}] {pct:3.0f} %")
 
     def event(self, kind: str, text: str) -> None:
         style = {"warning": "yellow", "trip": "bold red", "unsafe": "bold red on white"}.get(kind, "")
-        self._print(f"  [{style}]{kind}: {text}[/{style}]" if style else f"  {kind}: {text}")
+        line = escape(f"{kind}: {text}")
+        self._print(f"  [{style}]{line}[/{style}]" if style else f"  {line}")
 
     def sample(self, sample: Any, limits: Any) -> None:
         now = time.monotonic()

@@ -23,7 +23,7 @@ from typing import Annotated, Literal
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field
 
-from harness.common.units import Angle, Percent, Resistance, TemperatureDifference, Voltage, Current
+from harness.common.units import Angle, Current, Percent, Resistance, TemperatureDifference, Voltage
 
 Distribution = Literal["rectangular", "normal"]
 

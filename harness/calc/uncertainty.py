@@ -41,6 +41,9 @@ K = 2.0
 # local, large enough to stay clear of rounding (values ~1e3, u/value ~1e-5 still leaves 1e-11).
 STEP_FRACTION = 1e-3
 TESTS = ("no_load", "load")
+# Below this share a contribution is rounding of the central differences (an input that cancels
+# out of the model, such as a gain common to U and U' in their ratio): left out of the budget.
+NEGLIGIBLE_SHARE_PCT = 1e-9
 # The waveform correction is an approximation of its own (the supply's harmonics move hysteresis
 # and eddy losses differently from the form's assumption): it is charged with a rectangular bound
 # of its own size, the correction counted from zero up to twice its value. A convention of this
@@ -141,9 +144,16 @@ def reading_inputs(name: str, test) -> list[Input]:
             continue
         sd = getattr(s, f"{field}_sd", None) if s is not None else None
         for k, v in enumerate(values_of(value)):
-            u = values_of(sd)[k if isinstance(sd, tuple) else 0] / math.sqrt(s.count) if sd is not None else 0.0
-            items.append(Input(f"{name}.{field}.{k}", _reading_source(name, field, k, value, s), v, u, unit, "type A"))
+            items.append(Input(f"{name}.{field}.{k}", _reading_source(name, field, k, value, s), v,
+                               _type_a(sd, k, s.count if s is not None else 0), unit, "type A"))
     return items
+
+
+def _type_a(sd, k: int, count: int) -> float:
+    """s / sqrt(n) of phase k (one standard deviation given for all phases applies to each)."""
+    if sd is None:
+        return 0.0
+    return values_of(sd)[k if isinstance(sd, tuple) else 0] / math.sqrt(count)
 
 
 def _reading_source(name: str, field: str, k: int, value, samples) -> str:
@@ -175,11 +185,13 @@ def analyser_inputs(name: str, test, chain: MeasurementChain, n: int) -> list[In
         # Three-phase channels see the phase (star) voltage of the line-to-line reading.
         u_sec, i_sec, p_sec = u[k] / star / kv, i[k] / ki, test.power / n / (kv * ki)
         ur, ir = _ranges(test, a, u_sec, i_sec)
+        # Relative errors in % of reading: the % of range part counted at this reading.
         bounds = {"voltage": a.voltage.bound(u_sec, ur) / u_sec, "current": a.current.bound(i_sec, ir) / i_sec,
                   "power": a.power.bound(p_sec, ur * ir) / p_sec}
         where = f"ch {k + 1}, {SHORT[name]}"
         items += [Input(f"{name}.analyser.{q}.{k}", f"analyser {FIELD_WORDS[q]} ({where})", 0.0,
-                        standard_uncertainty(b, a.distribution), "1", a.distribution) for q, b in bounds.items()]
+                        standard_uncertainty(100 * b, a.distribution), "% of reading", a.distribution)
+                  for q, b in bounds.items()]
         items.append(Input(f"{name}.analyser.phase.{k}", f"analyser phase ({where})", 0.0,
                            standard_uncertainty(a.phase, a.distribution), "rad", a.distribution))
     return items
@@ -239,7 +251,7 @@ def waveform_inputs(record) -> list[Input]:
     if record.no_load is None or record.no_load.voltage_mean is None:
         return []
     return [Input("no_load.waveform_model", "waveform correction (its form)", 0.0,
-                  standard_uncertainty(WAVEFORM_MODEL_BOUND, "rectangular"), "1", "rectangular")]
+                  standard_uncertainty(100 * WAVEFORM_MODEL_BOUND, "rectangular"), "% of the correction", "rectangular")]
 
 
 def inputs_of(record) -> list[Input]:
@@ -266,7 +278,7 @@ def _with_analyser_errors(values: Values, name: str, field: str, like, quantity:
     """Readings with the analyser's relative error of each channel removed, in the record's shape."""
     reading = _phase_value(values, f"{name}.{field}", like)
     items = _channel_values(reading, n)
-    fixed = [items[k] * (1 - values.get(f"{name}.analyser.{quantity}.{k}", 0.0)) for k in range(n)]
+    fixed = [items[k] * (1 - values.get(f"{name}.analyser.{quantity}.{k}", 0.0) / 100) for k in range(n)]
     return tuple(fixed) if isinstance(like, tuple) else sum(fixed) / n
 
 
@@ -275,7 +287,7 @@ def _test_update(values: Values, name: str, test, n: int) -> dict:
               "current": _with_analyser_errors(values, name, "current", test.current, "current", n)}
     if getattr(test, "voltage_mean", None) is not None:
         update["voltage_mean"] = _with_analyser_errors(values, name, "voltage_mean", test.voltage_mean, "voltage", n)
-    e_p = sum(values.get(f"{name}.analyser.power.{k}", 0.0) for k in range(n)) / n
+    e_p = sum(values.get(f"{name}.analyser.power.{k}", 0.0) for k in range(n)) / n / 100
     update["power"] = values[f"{name}.power.0"] * (1 - e_p)  # P (1 - mean e_k) = sum P/n (1 - e_k)
     if test.temperature is not None:
         update["temperature"] = values[f"{name}.temperature"]
@@ -321,11 +333,11 @@ def model(record, values: Values) -> Values:
 
 
 def _waveform_model(nl: NoLoadResult | None, w: float) -> NoLoadResult | None:
-    """The no-load loss with its waveform correction scaled by (1 + w): P0 (1 + (f - 1)(1 + w)) / f."""
+    """The no-load loss with its waveform correction scaled by (1 + w/100): P0 (1 + (f - 1)(1 + w/100)) / f."""
     if nl is None or w == 0.0:
         return nl
     f = nl.waveform_correction_factor
-    return dataclasses.replace(nl, loss_W=nl.loss_W * (1 + (f - 1) * (1 + w)) / f)
+    return dataclasses.replace(nl, loss_W=nl.loss_W * (1 + (f - 1) * (1 + w / 100)) / f)
 
 
 # -- propagation ---------------------------------------------------------------------------------
@@ -345,7 +357,7 @@ def budget_of(value: float, rows: list[tuple[Input, float]], k: float = K) -> Bu
                           100 * (c * i.standard) ** 2 / u_c**2 if u_c > 0 else 0.0, i.distribution)
              for i, c in rows]
     parts.sort(key=lambda p: p.contribution, reverse=True)
-    return Budget(value, u_c, k, tuple(p for p in parts if p.contribution > 0))
+    return Budget(value, u_c, k, tuple(p for p in parts if p.share_pct > NEGLIGIBLE_SHARE_PCT))
 
 
 def propagate(f: Callable[[Values], Values], inputs: list[Input], k: float = K) -> dict[str, Budget]:

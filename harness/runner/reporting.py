@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import importlib.util
 from pathlib import Path
 from typing import Any
 
@@ -19,6 +20,8 @@ def write_run_reports(store: Any, run_id: str) -> Path:
     bundle = run_bundle(store, run_id)
     paths = write_reports(folder, bundle)
     store.export_csv(run_id, folder / "samples.csv")
+    if importlib.util.find_spec("pyarrow") is not None:
+        store.export_parquet(run_id, folder / "samples.parquet")
     return Path(paths["html"])
 
 

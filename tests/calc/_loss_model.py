@@ -56,7 +56,7 @@ def specs(record) -> dict[str, Spec]:
         if test is not None:
             out.update(_test_specs(name, test, chain, n))
     if record.no_load is not None and record.no_load.voltage_mean is not None:
-        out["waveform"] = Spec(0.0, _rect(1.0), "rectangular")
+        out["waveform"] = Spec(0.0, _rect(100.0), "rectangular")  # % of the correction
     meter, thermo = chain.resistance_meter, chain.thermometer
     for w in ("hv", "lv"):
         r = getattr(record.winding_resistance, w)
@@ -87,11 +87,12 @@ def _test_specs(name: str, test, chain, n: int) -> dict[str, Spec]:
         p_sec = test.power / n / ki
         ur = a.range_in_use("voltage", test.analyser_ranges.voltage)
         ir = a.range_in_use("current", test.analyser_ranges.current)
-        out[f"{name}.aU{k}"] = Spec(0.0, _rect((a.voltage.reading * u_sec + a.voltage.range * ur) / 100 / u_sec),
+        # relative errors in % of reading
+        out[f"{name}.aU{k}"] = Spec(0.0, _rect((a.voltage.reading * u_sec + a.voltage.range * ur) / u_sec),
                                     "rectangular")
-        out[f"{name}.aI{k}"] = Spec(0.0, _rect((a.current.reading * i_sec + a.current.range * ir) / 100 / i_sec),
+        out[f"{name}.aI{k}"] = Spec(0.0, _rect((a.current.reading * i_sec + a.current.range * ir) / i_sec),
                                     "rectangular")
-        out[f"{name}.aP{k}"] = Spec(0.0, _rect((a.power.reading * p_sec + a.power.range * ur * ir) / 100 / p_sec),
+        out[f"{name}.aP{k}"] = Spec(0.0, _rect((a.power.reading * p_sec + a.power.range * ur * ir) / p_sec),
                                     "rectangular")
         out[f"{name}.aphi{k}"] = Spec(0.0, _rect(a.phase), "rectangular")
     return out
@@ -100,7 +101,7 @@ def _test_specs(name: str, test, chain, n: int) -> dict[str, Spec]:
 def _channel(x: dict, name: str, field: str, n: int, k: int, err: str):
     key = f"{name}.{field}{k}"
     value = x[key] if key in x else x[f"{name}.{field}0"]
-    return value * (1 - x[f"{name}.{err}{k}"])
+    return value * (1 - x[f"{name}.{err}{k}"] / 100)
 
 
 def _g(x: dict, key: str) -> Any:
@@ -114,7 +115,7 @@ def corrected_test(m, x: dict, name: str, n: int) -> dict[str, list]:
     for k in range(n):
         u = _channel(x, name, "voltage", n, k, "aU")
         i = _channel(x, name, "current", n, k, "aI")
-        p = x[f"{name}.power"] / n * (1 - x[f"{name}.aP{k}"])
+        p = x[f"{name}.power"] / n * (1 - x[f"{name}.aP{k}"] / 100)
         rcf_u, rcf_i = 1 / (1 + _g(x, f"vt{k}.eps") / 100), 1 / (1 + _g(x, f"ct{k}.eps") / 100)
         delta = _g(x, f"ct{k}.delta") - _g(x, f"vt{k}.delta") + x[f"{name}.aphi{k}"]
         s = u / star * i
@@ -139,7 +140,7 @@ def outputs(m, x: dict, record) -> dict[str, Any]:
     nl, ld = corrected_test(m, x, "no_load", n), corrected_test(m, x, "load", n)
     u, um = _mean(nl["u"]), _mean(nl["um"])
     f = 1 + (um - u) / um
-    p0 = sum(nl["p"]) * (1 + (f - 1) * (1 + x["waveform"]))
+    p0 = sum(nl["p"]) * (1 + (f - 1) * (1 + x["waveform"] / 100))
     i0_pct = 100 * _mean(nl["i"]) / ir["lv"]
     n_t = _mean(ld["i"]) / ir["hv"]
     pk, uk = sum(ld["p"]) / n_t**2, _mean(ld["u"]) / n_t

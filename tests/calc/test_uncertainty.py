@@ -111,7 +111,8 @@ def test_percent_of_range_uses_the_range_in_use():
     record = single_phase(*RATED, load=_load(analyser_ranges={"voltage": "200 V", "current": "5 A"}),
                           measurement_chain=_chain(analyser=analyser))
     entry = next(c for c in uncertainty(record)[0]["impedance_pct"].budget if "analyser U" in c.source)
-    assert entry.standard_uncertainty == pytest.approx(0.001 * 300 / 246 / math.sqrt(3))
+    assert entry.standard_uncertainty == pytest.approx(0.1 * 300 / 246 / math.sqrt(3))
+    assert entry.unit == "% of reading"
 
 
 def _guaranteed(load_loss_W: str):

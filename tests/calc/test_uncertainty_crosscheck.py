@@ -17,7 +17,6 @@ through its own evaluation functions.
 from __future__ import annotations
 
 import math
-import warnings
 from pathlib import Path
 from types import SimpleNamespace
 
@@ -26,13 +25,10 @@ import pytest
 
 from harness.calc.record import load_record, record_from_text
 from harness.calc.uncertainty import uncertainty
-from tests.calc import _loss_model
+import uncertainties
+from uncertainties import umath
 
-with warnings.catch_warnings():
-    # The package may warn on import about deprecated helpers; only its core is used here.
-    warnings.simplefilter("ignore", DeprecationWarning)
-    import uncertainties
-    from uncertainties import umath
+from tests.calc import _loss_model
 
 RECORDS = Path(__file__).resolve().parents[2] / "sequences" / "records"
 THREE_PHASE = RECORDS / "three_phase_with_measurement_chain.yaml"

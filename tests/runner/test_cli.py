@@ -1,0 +1,68 @@
+"""The command line as a user meets it: evaluate with a report, bad records, listing and
+rebuilding runs, benchmarks that print their contract keys."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+
+from tests.runner.conftest import ROOT, harness
+
+RECORDS = ROOT / "sequences" / "records"
+
+
+def test_evaluate_writes_the_html_report(tmp_path: Path) -> None:
+    out = tmp_path / "hand" / "report.html"
+    proc = harness("evaluate", str(RECORDS / "single_phase_pole_mount.yaml"), "--html", str(out), "--json", data=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    assert {"no_load", "load", "checks"} <= set(json.loads(proc.stdout))
+    html = out.read_text()
+    assert "<svg" in html and "not a protective device" in html
+
+
+def test_malformed_record_exits_2_with_its_position(tmp_path: Path) -> None:
+    bad = tmp_path / "bad.yaml"
+    text = (RECORDS / "single_phase_pole_mount.yaml").read_text().replace("rated_power:", "rated_powr:", 1)
+    bad.write_text(text)
+    proc = harness("evaluate", str(bad), data=tmp_path)
+    line = next(n for n, l in enumerate(text.splitlines(), 1) if "rated_powr" in l)
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr
+    assert proc.stderr.startswith(f"{bad}:{line}:")
+
+
+def test_bad_option_values_exit_2(tmp_path: Path) -> None:
+    proc = harness("evaluate", str(RECORDS / "single_phase_pole_mount.yaml"), "--load", "0,-1", data=tmp_path)
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr and "--load" in proc.stderr
+    proc = harness("run", str(ROOT / "sequences" / "routine_single_phase.yaml"), "--fault", "gremlins", data=tmp_path)
+    assert proc.returncode == 2 and "unknown fault 'gremlins'" in proc.stderr
+
+
+def test_report_rebuilds_from_a_run_folder(demo_run) -> None:
+    _, doc, data = demo_run
+    folder = Path(doc["folder"])
+    (folder / "report.html").unlink()
+    proc = harness("report", str(folder), data=data)
+    assert proc.returncode == 0, proc.stderr
+    assert (folder / "report.html").is_file() and (folder / "samples.csv").is_file()
+    rows = (folder / "samples.csv").read_text().splitlines()
+    assert len(rows) == doc["samples"] + 1
+    listing = harness("runs", data=data)
+    assert doc["run_id"] in listing.stdout
+
+
+def test_unknown_run_is_a_clear_error(tmp_path: Path) -> None:
+    proc = harness("report", "19990101-000000-dead", data=tmp_path)
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr
+
+
+@pytest.mark.parametrize("which,keys", [
+    ("ramp", {"ratio_to_bound", "overshoot_pct", "baseline_ratio_to_bound"}),
+    ("overhead", {"ratio", "readings_per_second", "raw_pyvisa_us_per_reading"}),
+    ("reduce", {"samples", "seconds"}),
+])
+def test_benchmarks_print_their_figures(tmp_path: Path, which: str, keys: set[str]) -> None:
+    proc = harness("bench", which, "--json", data=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    assert keys <= set(json.loads(proc.stdout))

@@ -7,6 +7,7 @@ own layer on top of them.
 
 from __future__ import annotations
 
+import datetime as dt
 import math
 from dataclasses import dataclass, field
 from typing import Any, Callable
@@ -26,6 +27,7 @@ class Trip(HarnessError):
                  limit: float | None = None, step: str | None = None, time: float | None = None):
         self.cause, self.quantity, self.value, self.limit = cause, quantity, value, limit
         self.step, self.time = step, time
+        self.wall = dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds")
         super().__init__(self.sentence())
 
     def sentence(self) -> str:
@@ -35,8 +37,8 @@ class Trip(HarnessError):
         return self.cause
 
     def as_dict(self) -> dict[str, Any]:
-        return {"cause": self.cause, "quantity": self.quantity, "value": self.value,
-                "limit": self.limit, "step": self.step, "time": self.time, "text": self.sentence()}
+        return {"cause": self.cause, "quantity": self.quantity, "value": self.value, "limit": self.limit,
+                "step": self.step, "t_s": self.time, "time": self.wall, "text": self.sentence()}
 
 
 class LimitTrip(Trip):

@@ -21,7 +21,7 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from pydantic import AfterValidator, BaseModel, ConfigDict, Field
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
 
 from harness.common.units import Angle, Current, Percent, Resistance, TemperatureDifference, Voltage
 
@@ -88,7 +88,20 @@ class Analyser(_Model):
     voltage_ranges: list[Annotated[Voltage, AfterValidator(_not_negative)]] | None = Field(
         None, description="the voltage ranges, to find the one in use from the requested value")
     current_ranges: list[Annotated[Current, AfterValidator(_not_negative)]] | None = None
+    voltage_range_accuracy: list[Accuracy] | None = Field(
+        None, description="one per voltage range, in the same order: replaces 'voltage' on that range")
+    current_range_accuracy: list[Accuracy] | None = Field(
+        None, description="one per current range, in the same order: replaces 'current' on that range")
     distribution: Distribution = "rectangular"
+
+    @model_validator(mode="after")
+    def _one_accuracy_per_range(self) -> Analyser:
+        for q in ("voltage", "current"):
+            per_range, ranges = getattr(self, f"{q}_range_accuracy"), getattr(self, f"{q}_ranges")
+            if per_range is not None and len(per_range) != len(ranges or []):
+                raise ValueError(f"{q}_range_accuracy needs one entry per {q} range "
+                                 f"({len(ranges or [])}), got {len(per_range)}")
+        return self
 
     def range_in_use(self, quantity: str, requested: float) -> float:
         """The smallest range that holds ``requested`` (how range-selecting instruments round)."""
@@ -96,6 +109,16 @@ class Analyser(_Model):
         if not ranges:
             return requested
         return next((r for r in sorted(ranges) if requested <= r * (1 + 1e-9)), max(ranges))
+
+    def accuracy_on(self, quantity: str, range_: float) -> Accuracy:
+        """The accuracy of ``quantity`` on a range: its own entry when the chain gives one per range."""
+        per_range = getattr(self, f"{quantity}_range_accuracy", None)
+        ranges = getattr(self, f"{quantity}_ranges", None)
+        if per_range is not None and ranges:
+            for r, accuracy in zip(ranges, per_range):
+                if abs(r - range_) <= 1e-9 * r:
+                    return accuracy
+        return getattr(self, quantity)
 
 
 class ResistanceMeter(_Model):

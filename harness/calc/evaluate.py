@@ -32,6 +32,11 @@ def evaluate(record: Record, loads: Sequence[float] | None = None,
     0.25 ... 1.25 pu and 1.0 pu); ``power_factors`` replace the power factors of both (default 1.0
     and 0.8; every power factor below 1 gives a lagging and a leading regulation row). Raises
     ``ValueError`` with a sentence for an unusable load or power factor.
+
+    A record with a ``measurement_chain`` is first corrected for it (ratio errors, phase
+    displacement): every result, the "as measured" losses included, then rests on the corrected
+    readings, and ``corrections`` says what was read and what the correction did. Its
+    ``uncertainty`` is propagated through this same evaluation (``harness.calc.uncertainty``).
     """
     eff_loads = checked_loads(loads) if loads is not None else DEFAULT_LOADS
     reg_loads = eff_loads if loads is not None else DEFAULT_REGULATION_LOADS

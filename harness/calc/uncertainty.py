@@ -19,7 +19,13 @@ Inputs:
   is an expanded uncertainty at k = 2).
 
 The rms and mean-value voltages come from the same analyser input: one error, common to both, so
-the waveform correction (a ratio of the two) is not charged with it twice.
+the waveform correction (a ratio of the two) is not charged with it twice. The analyser's errors
+of the two tests are independent inputs (different ranges); the waveform correction's own form is
+an input of its own (``WAVEFORM_MODEL_BOUND``).
+
+Not in the model: the no-load loss's dependence on how far the test voltage sat from rated (the
+evaluation reports the loss as measured and warns instead); instrument-transformer errors that
+change with current or burden (one error per transformer); efficiency and regulation.
 """
 
 from __future__ import annotations
@@ -64,10 +70,8 @@ class Input:
     standard: float
     unit: str
     distribution: str
-
-    @property
-    def type(self) -> str:
-        return "A" if self.distribution == "type A" else "B"
+    degrees_of_freedom: float = math.inf
+    """n - 1 for a type A mean (GUM 4.2.6); a type B bound is taken as exactly known."""
 
 
 @dataclass(frozen=True)
@@ -90,6 +94,8 @@ class Budget:
     standard: float
     k: float
     budget: tuple[Contribution, ...]
+    effective_degrees_of_freedom: float = math.inf
+    """Welch-Satterthwaite (GUM G.4.1); small values say k = 2 covers less than 95 %."""
 
     @property
     def expanded(self) -> float:
@@ -103,6 +109,7 @@ class Budget:
         return {"value": self.value, "standard": self.standard, "expanded": self.expanded, "k": self.k,
                 "relative_expanded_pct": 100 * self.expanded / abs(self.value) if self.value else None,
                 "largest_contributor": self.largest.source if self.largest else None,
+                "effective_degrees_of_freedom": self.effective_degrees_of_freedom,
                 "budget": [c.to_dict() for c in self.budget]}
 
 
@@ -145,7 +152,8 @@ def reading_inputs(name: str, test) -> list[Input]:
         sd = getattr(s, f"{field}_sd", None) if s is not None else None
         for k, v in enumerate(values_of(value)):
             items.append(Input(f"{name}.{field}.{k}", _reading_source(name, field, k, value, s), v,
-                               _type_a(sd, k, s.count if s is not None else 0), unit, "type A"))
+                               _type_a(sd, k, s.count if s is not None else 0), unit, "type A",
+                               s.count - 1 if s is not None else math.inf))
     return items
 
 
@@ -186,7 +194,8 @@ def analyser_inputs(name: str, test, chain: MeasurementChain, n: int) -> list[In
         u_sec, i_sec, p_sec = u[k] / star / kv, i[k] / ki, test.power / n / (kv * ki)
         ur, ir = _ranges(test, a, u_sec, i_sec)
         # Relative errors in % of reading: the % of range part counted at this reading.
-        bounds = {"voltage": a.voltage.bound(u_sec, ur) / u_sec, "current": a.current.bound(i_sec, ir) / i_sec,
+        bounds = {"voltage": a.accuracy_on("voltage", ur).bound(u_sec, ur) / u_sec,
+                  "current": a.accuracy_on("current", ir).bound(i_sec, ir) / i_sec,
                   "power": a.power.bound(p_sec, ur * ir) / p_sec}
         where = f"ch {k + 1}, {SHORT[name]}"
         items += [Input(f"{name}.analyser.{q}.{k}", f"analyser {FIELD_WORDS[q]} ({where})", 0.0,
@@ -251,7 +260,8 @@ def waveform_inputs(record) -> list[Input]:
     if record.no_load is None or record.no_load.voltage_mean is None:
         return []
     return [Input("no_load.waveform_model", "waveform correction (its form)", 0.0,
-                  standard_uncertainty(100 * WAVEFORM_MODEL_BOUND, "rectangular"), "% of the correction", "rectangular")]
+                  standard_uncertainty(100 * WAVEFORM_MODEL_BOUND, "rectangular"), "% of the correction",
+                  "rectangular")]
 
 
 def inputs_of(record) -> list[Input]:
@@ -357,7 +367,15 @@ def budget_of(value: float, rows: list[tuple[Input, float]], k: float = K) -> Bu
                           100 * (c * i.standard) ** 2 / u_c**2 if u_c > 0 else 0.0, i.distribution)
              for i, c in rows]
     parts.sort(key=lambda p: p.contribution, reverse=True)
-    return Budget(value, u_c, k, tuple(p for p in parts if p.share_pct > NEGLIGIBLE_SHARE_PCT))
+    return Budget(value, u_c, k, tuple(p for p in parts if p.share_pct > NEGLIGIBLE_SHARE_PCT),
+                  effective_dof(u_c, rows))
+
+
+def effective_dof(u_c: float, rows: list[tuple[Input, float]]) -> float:
+    """nu_eff = u_c^4 / sum (c_i u_i)^4 / nu_i  (GUM eq. (G.2b)); infinite when every input is type B."""
+    denominator = sum((c * i.standard) ** 4 / i.degrees_of_freedom for i, c in rows
+                      if math.isfinite(i.degrees_of_freedom) and c * i.standard != 0)
+    return u_c**4 / denominator if denominator > 0 else math.inf
 
 
 def propagate(f: Callable[[Values], Values], inputs: list[Input], k: float = K) -> dict[str, Budget]:

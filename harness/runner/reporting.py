@@ -51,7 +51,7 @@ def _trip(trip: dict[str, Any] | None, steps: list[dict[str, Any]], labels: dict
     if not trip:
         return trip
     named = [st["step_index"] for st in steps if st["name"] == trip.get("step")]
-    return {**trip, "step": labels[named[-1]] if named else trip.get("step"), "t_s": trip.get("time")}
+    return {**trip, "step": labels[named[-1]] if named else trip.get("step")}
 
 
 def _yaml(text: str | None) -> dict[str, Any]:

@@ -157,3 +157,42 @@ def test_harness_evaluate_prints_corrected_losses_and_their_uncertainty():
     assert proc.returncode == 0, proc.stderr
     assert "Measurement-chain corrections" in proc.stdout and "largest contributor" in proc.stdout
     assert "PASS (uncertain)" in proc.stdout and "could flip" in proc.stdout
+
+
+def test_budget_values_are_the_reported_results():
+    from pathlib import Path
+    from harness.calc import load_record
+    record = Path(__file__).resolve().parents[2] / "sequences" / "records" / "three_phase_with_measurement_chain.yaml"
+    data = evaluate(load_record(record)).to_dict()
+    u, nl, ld = data["uncertainty"], data["no_load"], data["load"]
+    assert u["no_load_loss_W"]["value"] == pytest.approx(nl["loss_W"], rel=1e-12)
+    assert u["no_load_current_pct"]["value"] == pytest.approx(nl["current_pct"], rel=1e-12)
+    assert u["load_loss_ref_W"]["value"] == pytest.approx(ld["loss_ref_W"], rel=1e-12)
+    assert u["impedance_ref_pct"]["value"] == pytest.approx(ld["impedance_ref_pct"], rel=1e-12)
+    assert u["total_loss_W"]["value"] == pytest.approx(nl["loss_W"] + ld["loss_ref_W"], rel=1e-12)
+
+
+def test_accuracy_per_range_replaces_the_general_band():
+    analyser = {"voltage": {"reading": "0.02 %"}, "voltage_ranges": ["150 V", "300 V"],
+                "voltage_range_accuracy": [{"reading": "0.02 %"}, {"reading": "0.5 %"}]}
+    record = single_phase(*RATED, load=_load(analyser_ranges={"voltage": "250 V", "current": "5 A"}),
+                          measurement_chain=_chain(analyser=analyser))
+    entry = next(c for c in uncertainty(record)[0]["impedance_pct"].budget if "analyser U" in c.source)
+    assert entry.standard_uncertainty == pytest.approx(0.5 / math.sqrt(3))
+
+
+def test_accuracy_per_range_needs_one_entry_per_range():
+    from pydantic import ValidationError
+    analyser = {"voltage_ranges": ["150 V", "300 V"], "voltage_range_accuracy": [{"reading": "0.02 %"}]}
+    with pytest.raises(ValidationError, match="one entry per voltage range"):
+        single_phase(*RATED, load=_load(), measurement_chain=_chain(analyser=analyser))
+
+
+def test_effective_degrees_of_freedom_of_a_type_a_only_budget():
+    # One type A input alone: nu_eff = n - 1 (GUM G.4.1 with a single term).
+    samples = {"count": 8, "current_sd": "0.002 A"}
+    budgets, _ = uncertainty(single_phase(*RATED, no_load=_no_load(samples=samples), measurement_chain=_chain()))
+    assert budgets["no_load_current_pct"].effective_degrees_of_freedom == pytest.approx(7.0)
+    ct = {"ratio_error_uncertainty": "0.1 %"}
+    only_b = uncertainty(single_phase(*RATED, load=_load(), measurement_chain=_chain(ct)))
+    assert math.isinf(only_b[0]["load_loss_W"].effective_degrees_of_freedom)

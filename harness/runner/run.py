@@ -156,6 +156,7 @@ def _start_at_zero(run: Run) -> None:
     source = run.bay.source
     source.set_output(False)
     source.set_voltage(0.0)
+    source.set_frequency(run.sequence.transformer.frequency)  # both tests run at rated frequency
     if source.output_is_on() or source.voltage_setpoint() != 0.0:
         raise Trip("the source did not confirm output off at zero volts before the run", step="start")
     _arm_source_protection(run)

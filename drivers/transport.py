@@ -146,21 +146,21 @@ class PyvisaTransport:
         return self._open(command)
 
     def query(self, command: str) -> str:
-        res = self._res or self._session(command)
+        res = self._res if self._res is not None else self._session(command)
         try:
             return res.query(command)
         except _MAPPED as exc:
             raise self._failure(exc, command) from exc
 
     def write(self, command: str) -> None:
-        res = self._res or self._session(command)
+        res = self._res if self._res is not None else self._session(command)
         try:
             res.write(command)
         except _MAPPED as exc:
             raise self._failure(exc, command) from exc
 
     def read(self) -> str:
-        res = self._res or self._session("(read)")
+        res = self._res if self._res is not None else self._session("(read)")
         try:
             return res.read()
         except _MAPPED as exc:

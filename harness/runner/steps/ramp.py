@@ -15,8 +15,8 @@ from harness.runner.context import Run, Sample
 from harness.runner.steps import register
 from harness.safety import Trip
 
-SETTLED_CHANGE = 0.001     # spread of the last applied-voltage readings that counts as settled
-SETTLED_READINGS = 3
+SETTLED_READINGS = 3        # distinct readings within half the tolerance band count as settled
+K_RANGE = (0.8, 1.25)       # plausible applied/set ratios; outside, the source is still moving
 LEARN_FROM = 0.05          # learn the gain once the applied voltage passes 5 % of the goal
 
 
@@ -54,16 +54,21 @@ def ramp_to(run: Run, quantity: str, target: float, tolerance_pct: float, method
 
 def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> RampResult:
     start = run.clock.now()
-    tol = tolerance_pct / 100 * target
-    # Until the source's own drop (output impedance, wiring) is learned from a settled reading,
-    # aim in the upper half of the tolerance band, so that the unknown drop lands inside it.
-    aim = target + tol / 2
+    band = tolerance_pct / 100
+    # Applied volts per volt of setpoint (the source's output impedance, the wiring): learned from
+    # a settled reading, kept for the next ramp on the same wiring. Until it is known, aim high in
+    # the tolerance band (at 3/4 of its upper half): a drop of up to 1.75 band widths still lands
+    # inside, no drop at all lands below the band's top, and the first-order tail enters the band
+    # sooner than from a centred aim.
+    k = run.gains.get("drop")
+    aim = target if k else target * (1 + 0.75 * band)
+    k = k or 1.0
     gain = initial_gain(run, quantity)
-    goal = aim / gain
-    run.send_setpoint(min(goal * 0.5, run.supervisor.limits.voltage) if quantity == "current" else goal * 0.98)
+    first = aim / gain / k
+    run.send_setpoint(min(first * 0.5, run.supervisor.limits.voltage) if quantity == "current" else first * 0.98)
     applied: list[float] = []
     peak = 0.0
-    deadline = start + _time_allowed(run, goal)
+    deadline = start + _time_allowed(run, first)
     while True:
         run.clock.sleep(run.update_interval)
         s = run.read()
@@ -71,40 +76,29 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
         peak = max(peak, y)
         if not applied or s.u_rms != applied[-1]:
             applied.append(s.u_rms)  # a repeated value is the same analyser update, not a settled source
-        settled = _settled(applied)
-        if settled and abs(y - target) <= tol:
+        settled = _settled(applied, band / 2)
+        if settled and abs(y - target) <= band * target:
             run.gains[quantity] = y / s.u_rms
             return RampResult(y, run.clock.now() - start, peak)
-        wanted = _trim(run.setpoint, y, target) if settled else _aim(s, y, aim)
-        if wanted is not None and _worth_sending(run.setpoint, wanted):
-            run.send_setpoint(wanted)
-            applied.clear()
+        if settled and K_RANGE[0] <= s.u_rms / run.setpoint <= K_RANGE[1]:
+            k, aim = s.u_rms / run.setpoint, target
+            run.gains["drop"] = k
+        if y > 0 and s.u_rms > LEARN_FROM * run.setpoint:
+            wanted = aim / (y / s.u_rms) / k
+            if abs(wanted - run.setpoint) > band / 10 * wanted:  # below that, reading noise
+                if abs(wanted - run.setpoint) > band / 2 * wanted:
+                    applied.clear()  # a real move: the source must settle again
+                run.send_setpoint(wanted)
         if run.clock.now() > deadline:
             raise Trip(f"ramp did not reach {target:.4g} within tolerance", quantity, y, target, run.step_title, run.clock.now())
 
 
-def _aim(s: Sample, y: float, aim: float) -> float | None:
-    """While the source moves: the applied voltage the learned gain (y per applied volt) asks for."""
-    if y <= 0 or s.u_rms <= 0 or s.setpoint <= 0 or s.u_rms < LEARN_FROM * s.setpoint:
-        return None
-    return aim / (y / s.u_rms)
-
-
-def _trim(setpoint: float, y: float, target: float) -> float | None:
-    """Settled but outside the band: scale the setpoint by the remaining ratio (gain and drop together)."""
-    return setpoint * target / y if y > 0 else None
-
-
-def _settled(applied: list[float]) -> bool:
-    """The last SETTLED_READINGS distinct readings of the applied voltage agree within SETTLED_CHANGE."""
+def _settled(applied: list[float], spread: float) -> bool:
+    """The last SETTLED_READINGS distinct readings of the applied voltage agree within ``spread``."""
     if len(applied) < SETTLED_READINGS:
         return False
     last = applied[-SETTLED_READINGS:]
-    return (max(last) - min(last)) <= SETTLED_CHANGE * max(last)
-
-
-def _worth_sending(current: float, wanted: float) -> bool:
-    return abs(wanted - current) > 0.0002 * max(wanted, 1e-9)
+    return (max(last) - min(last)) <= spread * max(last)
 
 
 def _time_allowed(run: Run, goal_volts: float) -> float:

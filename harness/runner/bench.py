@@ -31,7 +31,7 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
     from drivers import open_instrument
     from harness.common.clock import Clock
     from harness.config.checks import station_limits
-    from harness.config.sim_station import sim_station
+    from harness.runner.sim_station import sim_station
     from harness.safety import Supervisor
 
     clock = Clock(1.0)

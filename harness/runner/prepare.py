@@ -11,7 +11,7 @@ from harness.common.errors import InputError
 from harness.common.yamlio import load_file, validate
 from harness.config.checks import check
 from harness.config.sequence import Sequence
-from harness.config.sim_station import SIM_STATION_FILE, ratings_of, sim_station
+from harness.runner.sim_station import SIM_STATION_FILE, sim_station
 from harness.config.station import Station
 
 
@@ -44,7 +44,7 @@ def prepare(options: RunOptions) -> Prepared:
     if options.station is None:
         from harness.sim.scenario import load_scenario
         scenario = load_scenario(options.scenario)
-        station, station_text = sim_station(ratings=ratings_of(scenario.source))
+        station, station_text = sim_station(scenario=scenario)
         station_file = SIM_STATION_FILE
     else:
         st_loaded = load_file(options.station)

@@ -17,7 +17,7 @@ from typing import Any, Iterator
 from drivers.errors import InstrumentError
 from harness import __version__
 from harness.common.clock import Clock
-from harness.config.sim_station import ratings_of, sim_station
+from harness.runner.sim_station import sim_station
 from harness.config.station import Station
 from harness.runner.bay import Bay, open_bay
 from harness.runner.context import Run
@@ -44,7 +44,7 @@ def simulated_bay(prepared: Prepared, options: RunOptions, clock: Clock) -> Iter
 
     scenario = prepared.scenario
     with SimServer(SimBay(scenario, clock, faults=options.faults)) as server:
-        yield sim_station(server.resources(), ratings_of(scenario.source))
+        yield sim_station(server.resources(), scenario)
 
 
 @contextlib.contextmanager

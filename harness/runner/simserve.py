@@ -7,7 +7,7 @@ import sys
 import threading
 
 from harness.common.clock import Clock
-from harness.config.sim_station import ratings_of, sim_station_text
+from harness.runner.sim_station import sim_station_text
 
 
 def serve(scenario_name: str, time_scale: float, faults: tuple[str, ...]) -> int:
@@ -24,7 +24,7 @@ def serve(scenario_name: str, time_scale: float, faults: tuple[str, ...]) -> int
             print(f"#   {role:17} {resource}", file=sys.stderr)
         print("# a station file for them follows on stdout; save it and pass it with --station", file=sys.stderr)
         print("# (runs against it must use the same --time-scale as this server)", file=sys.stderr)
-        print(sim_station_text(server.resources(), ratings_of(scenario.source)), flush=True)
+        print(sim_station_text(server.resources(), scenario), flush=True)
         try:
             while not stop.wait(0.5):
                 pass

@@ -82,7 +82,8 @@ class Analyser:
         return self._cache[1]
 
     def _channel(self, ch: int, op: OperatingPoint | None, freq: float) -> ChannelValues:
-        u, um, i, p = (op.u_rms, op.u_mean, op.i_rms, op.power) if op else (0.0, 0.0, 0.0, 0.0)
+        vt, ct = self.spec.vt_ratio, self.spec.ct_ratio  # the analyser sees the secondaries
+        u, um, i, p = (op.u_rms / vt, op.u_mean / vt, op.i_rms / ct, op.power / (vt * ct)) if op else (0.0, 0.0, 0.0, 0.0)
         ranges = {"voltage": self.voltage_range, "current": self.current_range,
                   "power": self.voltage_range * self.current_range}
         read = {q: (lambda true, q=q: self._read(q, ch, true, ranges[q])) for q in QUANTITIES}

@@ -139,6 +139,8 @@ class AnalyserSpec(_Frozen):
     noise: QuantitySpecs = QuantitySpecs()
     update_interval: Duration = Field(0.2, gt=0)
     overload_factor: float = Field(1.2, ge=1.0, le=2.0)
+    vt_ratio: float = Field(1.0, gt=0, description="voltage transformer ahead of the analyser: primary/secondary")
+    ct_ratio: float = Field(1.0, gt=0, description="current transformer ahead of the analyser: primary/secondary")
 
     @model_validator(mode="after")
     def _ranges_ascending(self) -> "AnalyserSpec":

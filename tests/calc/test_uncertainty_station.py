@@ -11,7 +11,7 @@ from pydantic import ValidationError
 from harness.calc import Record, evaluate
 from harness.calc.record import Transformer
 from harness.common.yamlio import load_text, validate
-from harness.config.sim_station import sim_station, sim_station_text
+from harness.runner.sim_station import sim_station, sim_station_text
 from harness.config.station import Station
 from harness.runner.context import MeasuredReading
 from harness.runner.record import build_record

@@ -11,7 +11,7 @@ import pytest
 import yaml
 
 from harness.config.schema import schema
-from harness.config.sim_station import sim_station_text
+from harness.runner.sim_station import sim_station_text
 
 ROOT = Path(__file__).resolve().parents[2]
 SCHEMA_DIR = ROOT / "sequences" / "schema"

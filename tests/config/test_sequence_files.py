@@ -100,7 +100,7 @@ def test_measure_needs_the_right_wiring(tmp_path: Path) -> None:
 
 
 def test_yes_is_refused_on_a_real_station(tmp_path: Path) -> None:
-    from harness.config.sim_station import sim_station_text
+    from harness.runner.sim_station import sim_station_text
     station = write(tmp_path, sim_station_text().replace("simulated: true", "simulated: false")
                     .replace("  bay_control:", "  #bay_control:"), "station.yaml")
     with pytest.raises(InputError) as info:

@@ -37,7 +37,7 @@ def test_run_against_a_served_bay_through_its_station_file(tmp_path: Path) -> No
 
 
 def test_check_against_a_station_file(tmp_path: Path) -> None:
-    from harness.config.sim_station import sim_station_text
+    from harness.runner.sim_station import sim_station_text
     station = tmp_path / "station.yaml"
     station.write_text(sim_station_text(), encoding="utf-8")
     env = {**os.environ, "HARNESS_DATA": str(tmp_path)}

@@ -1,0 +1,92 @@
+"""The built-in station of the simulated bay, used when ``harness run`` gets no --station."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from harness.common.yamlio import load_text, validate
+from harness.config.station import Station
+
+SIM_STATION_FILE = "<built-in simulated bay>"
+
+_TEMPLATE = """\
+spec: 1
+name: Simulated bay
+lab: Harness simulated test bay (no hardware)
+simulated: true
+instruments:
+  source: {{resource: "{source}", profile: generic-ac-source, timeout: 0.5 s}}
+  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 0.5 s}}
+  resistance_meter:
+    resource: "{resistance_meter}"
+    profile: generic-resistance-meter
+    timeout: 0.5 s
+    channels: {{hv: 1, lv: 2}}
+  thermometer:
+    resource: "{thermometer}"
+    profile: generic-thermometer
+    timeout: 0.5 s
+    channels: {{ambient: 1, oil: 2, winding: 3}}
+  bay_control: {{resource: "{bay_control}", profile: generic-bay-control, timeout: 0.5 s}}
+measurement: {{vt_ratio: {vt:g}, ct_ratio: {ct:g}}}
+measurement_chain:      # the simulated analyser's accuracy, from the scenario; its instrument
+  channels:             # transformers (if any) are ideal, so ratio errors and displacements are zero
+    - voltage_transformer: {{ratio: {vt:g}, burden: "{burden}"}}
+      current_transformer: {{ratio: {ct:g}, burden: "{burden}"}}
+    - voltage_transformer: {{ratio: {vt:g}}}
+      current_transformer: {{ratio: {ct:g}}}
+    - voltage_transformer: {{ratio: {vt:g}}}
+      current_transformer: {{ratio: {ct:g}}}
+  analyser:
+    voltage: {{reading: {u_reading:g} %, range: {u_range:g} %}}
+    current: {{reading: {i_reading:g} %, range: {i_range:g} %}}
+    power: {{reading: {p_reading:g} %, range: {p_range:g} %}}
+    phase: 0 rad        # the simulated analyser has no phase error
+    voltage_ranges: [{voltage_ranges}]
+    current_ranges: [{current_ranges}]
+  resistance_meter: {{reading: {rm_accuracy:g} %}}
+  thermometer: {{accuracy: {th_accuracy:g} K}}
+limits:                 # the bay's hard limits: its source's ratings
+  voltage: {max_voltage}
+  current: {max_current}
+  power: {max_power}
+  energised_time: 2 h
+  winding_temperature: 110 degC
+  slew: {max_slew}
+safe_state: {{deenergised_voltage: 5 V, deenergised_current: 0.05 A, confirm_timeout: 5 s}}
+readings: {{late_after: 1 s, stale_after: 5 s, temperature_interval: 2 s}}
+"""
+
+ROLES = ("source", "analyser", "resistance_meter", "thermometer", "bay_control")
+PLACEHOLDER = {role: f"TCPIP0::127.0.0.1::{5025 + i}::SOCKET" for i, role in enumerate(ROLES)}
+
+
+def scenario_fields(scenario: Any) -> dict[str, Any]:
+    """What the station states about a simulated bay: its source's ratings as the hard limits,
+    its analyser's instrument transformers, ranges and accuracy as the measurement chain."""
+    src, an = scenario.source, scenario.analyser
+    acc = an.accuracy
+    return {
+        "max_voltage": f"{src.max_voltage:g} V", "max_current": f"{src.max_current:g} A",
+        "max_power": f"{src.max_voltage * src.max_current:g} W", "max_slew": f"{src.max_slew:g} V/s",
+        "vt": an.vt_ratio, "ct": an.ct_ratio,
+        "burden": "ideal (simulated)" if (an.vt_ratio, an.ct_ratio) != (1, 1) else "none: direct connection",
+        "u_reading": acc.voltage.reading, "u_range": acc.voltage.range, "i_reading": acc.current.reading,
+        "i_range": acc.current.range, "p_reading": acc.power.reading, "p_range": acc.power.range,
+        "voltage_ranges": ", ".join(f"{r:g} V" for r in an.voltage_ranges),
+        "current_ranges": ", ".join(f"{r:g} A" for r in an.current_ranges),
+        "rm_accuracy": scenario.resistance_meter.accuracy, "th_accuracy": scenario.thermometer.accuracy,
+    }
+
+
+def sim_station_text(resources: dict[str, str] | None = None, scenario: Any = None) -> str:
+    """The station file for a simulated bay (placeholder resources before it is served)."""
+    if scenario is None:
+        from harness.sim.scenario import load_scenario
+        scenario = load_scenario("default")
+    return _TEMPLATE.format(**{**PLACEHOLDER, **(resources or {}), **scenario_fields(scenario)})
+
+
+def sim_station(resources: dict[str, str] | None = None, scenario: Any = None) -> tuple[Station, str]:
+    text = sim_station_text(resources, scenario)
+    return validate(Station, load_text(text, SIM_STATION_FILE)), text

@@ -56,12 +56,14 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
     start = run.clock.now()
     band = tolerance_pct / 100
     # Applied volts per volt of setpoint (the source's output impedance, the wiring): learned from
-    # a settled reading, kept for the next ramp on the same wiring. Until it is known, aim high in
-    # the tolerance band (at 3/4 of its upper half): a drop of up to 1.75 band widths still lands
-    # inside, no drop at all lands below the band's top, and the first-order tail enters the band
-    # sooner than from a centred aim.
+    # a settled reading, kept for the next ramp on the same wiring. Until it is known, a current
+    # ramp (where the load current makes the drop matter) aims high in the tolerance band, at 3/4
+    # of its upper half: a drop of up to 1.75 band widths still lands inside, no drop at all lands
+    # below the band's top, and the first-order tail enters the band sooner than from a centred
+    # aim. A voltage ramp (no-load: a small current, a negligible drop) aims at the target itself,
+    # since the no-load loss follows the square of where it lands.
     k = run.gains.get("drop")
-    aim = target if k else target * (1 + 0.75 * band)
+    aim = target * (1 + 0.75 * band) if quantity == "current" and not k else target
     k = k or 1.0
     gain = initial_gain(run, quantity)
     first = aim / gain / k

@@ -81,6 +81,7 @@ class Run:
     _next_source_t: float = 0.0
     _ranges: tuple[float, float] = (0.0, 0.0)
     update_interval: float = 0.2
+    measure_averaging: float = 0.2
 
     def __post_init__(self) -> None:
         from harness.config.checks import station_limits
@@ -128,6 +129,13 @@ class Run:
         m = self.station.measurement
         self._set_ranges(RANGE_HEADROOM * max(sample.u_rms, sample.u_mean) / m.vt_ratio,
                          RANGE_HEADROOM * sample.i_rms / m.ct_ratio)
+
+    def use_averaging(self, seconds: float) -> None:
+        """The analyser's update interval: short while ramping (the controller sees the source
+        move), the instrument's own (longer, quieter) while measuring."""
+        if seconds != self.update_interval:
+            self.bay.analyser.set_averaging(seconds)
+            self.update_interval = seconds
 
     def _set_ranges(self, volts: float, amps: float) -> None:
         if (volts, amps) == self._ranges:

@@ -160,7 +160,7 @@ def _start_at_zero(run: Run) -> None:
     if source.output_is_on() or source.voltage_setpoint() != 0.0:
         raise Trip("the source did not confirm output off at zero volts before the run", step="start")
     _arm_source_protection(run)
-    run.update_interval = max(run.bay.analyser.averaging(), 0.05)
+    run.update_interval = run.measure_averaging = run.bay.analyser.averaging()
     run.event("ready", f"instruments identified; source output off at zero volts; analyser updates every "
                        f"{run.update_interval:g} s")
 

@@ -21,6 +21,7 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
     window: list[Sample] = []
     temps: list[float] = []
     stats: dict = {}
+    run.use_averaging(run.measure_averaging)
     if run.last_sample is not None:
         run.fit_ranges(run.last_sample)
     for _ in range(max_readings):

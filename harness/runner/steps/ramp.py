@@ -15,6 +15,7 @@ from harness.runner.context import Run, Sample
 from harness.runner.steps import register
 from harness.safety import Trip
 
+RAMP_AVERAGING_S = 0.05     # analyser update interval while ramping (bay seconds)
 SETTLED_READINGS = 3        # distinct readings within half the tolerance band count as settled
 K_RANGE = (0.8, 1.25)       # plausible applied/set ratios; outside, the source is still moving
 LEARN_FROM = 0.05          # learn the gain once the applied voltage passes 5 % of the goal
@@ -45,6 +46,7 @@ def initial_gain(run: Run, quantity: str) -> float:
 
 def ramp_to(run: Run, quantity: str, target: float, tolerance_pct: float, method: str = "learned") -> RampResult:
     run.range_for_limits()
+    run.use_averaging(RAMP_AVERAGING_S)
     run.energise()
     run.bay.source.set_slew(run.station.limits.slew)
     if method == "fixed-increment":

@@ -16,7 +16,8 @@ from harness.runner.steps import register
 from harness.safety import Trip
 
 RAMP_AVERAGING_S = 0.05     # analyser update interval while ramping (bay seconds)
-SETTLED_READINGS = 3        # distinct readings within half the tolerance band count as settled
+SETTLED_READINGS = 3        # distinct readings within half the tolerance band count as settled ...
+SETTLED_WINDOW_FACTOR = 2   # ... over at least this many of the analyser's measuring intervals
 K_RANGE = (0.8, 1.25)       # plausible applied/set ratios; outside, the source is still moving
 LEARN_FROM = 0.05          # learn the gain once the applied voltage passes 5 % of the goal
 
@@ -70,7 +71,7 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
     gain = initial_gain(run, quantity)
     first = aim / gain / k
     run.send_setpoint(min(first * 0.5, run.supervisor.limits.voltage) if quantity == "current" else first * 0.98)
-    applied: list[float] = []
+    applied: list[tuple[float, float]] = []
     peak = 0.0
     deadline = start + _time_allowed(run, first)
     while True:
@@ -78,9 +79,9 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
         s = run.read()
         y = measured(s, quantity)
         peak = max(peak, y)
-        if not applied or s.u_rms != applied[-1]:
-            applied.append(s.u_rms)  # a repeated value is the same analyser update, not a settled source
-        settled = _settled(applied, band / 2)
+        if not applied or s.u_rms != applied[-1][1]:
+            applied.append((s.t, s.u_rms))  # a repeated value is the same analyser update, not a settled source
+        settled = _settled(applied, band / 2, SETTLED_WINDOW_FACTOR * run.measure_averaging)
         if settled and abs(y - target) <= band * target:
             run.gains[quantity] = y / s.u_rms
             return RampResult(y, run.clock.now() - start, peak)
@@ -97,12 +98,17 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
             raise Trip(f"ramp did not reach {target:.4g} within tolerance", quantity, y, target, run.step_title, run.clock.now())
 
 
-def _settled(applied: list[float], spread: float) -> bool:
-    """The last SETTLED_READINGS distinct readings of the applied voltage agree within ``spread``."""
-    if len(applied) < SETTLED_READINGS:
+def _settled(applied: list[tuple[float, float]], spread: float, window: float) -> bool:
+    """The applied voltage has stayed within ``spread`` (relative) for at least ``window`` bay
+    seconds, over SETTLED_READINGS distinct readings or more. A window much shorter than the
+    source's settling would take the slow end of its approach for a settled value."""
+    if len(applied) < SETTLED_READINGS or applied[-1][0] - applied[0][0] < window:
         return False
-    last = applied[-SETTLED_READINGS:]
-    return (max(last) - min(last)) <= spread * max(last)
+    t_last = applied[-1][0]
+    recent = [u for t, u in applied if t >= t_last - window]
+    if len(recent) < SETTLED_READINGS:
+        return False
+    return (max(recent) - min(recent)) <= spread * max(recent)
 
 
 def _time_allowed(run: Run, goal_volts: float) -> float:

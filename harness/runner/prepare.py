@@ -7,8 +7,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from harness.common.errors import InputError
-from harness.common.yamlio import load_file, validate
+from harness.common.errors import InputError, UsageError
+from harness.common.yamlio import LoadedYaml, load_file, validate
 from harness.config.checks import check
 from harness.config.sequence import Sequence
 from harness.runner.sim_station import SIM_STATION_FILE, sim_station
@@ -40,10 +40,16 @@ def prepare(options: RunOptions) -> Prepared:
     """Load and cross-check sequence and station; nothing is touched on the bay."""
     scenario = None
     loaded = load_file(options.sequence)
+    _not_a_record(loaded)
     sequence = validate(Sequence, loaded)
     if options.station is None:
         from harness.sim.scenario import load_scenario
-        scenario = load_scenario(options.scenario)
+        try:
+            scenario = load_scenario(options.scenario)
+        except InputError as exc:
+            if exc.line:  # an error inside a scenario file keeps its position
+                raise
+            raise UsageError(f"--sim: {exc.message}") from exc
         station, station_text = sim_station(scenario=scenario)
         station_file = SIM_STATION_FILE
     else:
@@ -56,6 +62,13 @@ def prepare(options: RunOptions) -> Prepared:
     if options.time_scale not in (None, 1.0) and not station.simulated:
         raise InputError("--time-scale is for the simulated bay only; a real bay runs in real time", station_file, 1, 1)
     return Prepared(sequence, _text(options.sequence), station, station_text, station_file, scenario)
+
+
+def _not_a_record(loaded: LoadedYaml) -> None:
+    data = loaded.data
+    if isinstance(data, dict) and "steps" not in data and ("no_load" in data or "load" in data):
+        raise loaded.error((), "this is a record of readings, not a test sequence: evaluate it with "
+                               "'harness evaluate'")
 
 
 def _text(path: Path) -> str:

@@ -66,3 +66,13 @@ def test_benchmarks_print_their_figures(tmp_path: Path, which: str, keys: set[st
     proc = harness("bench", which, "--json", data=tmp_path)
     assert proc.returncode == 0, proc.stderr
     assert keys <= set(json.loads(proc.stdout))
+
+
+def test_a_record_given_to_run_says_what_to_do(tmp_path: Path) -> None:
+    proc = harness("run", str(RECORDS / "single_phase_pole_mount.yaml"), "--yes", data=tmp_path)
+    assert proc.returncode == 2 and "harness evaluate" in proc.stderr and "Traceback" not in proc.stderr
+
+
+def test_unknown_scenario_is_a_usage_error(tmp_path: Path) -> None:
+    proc = harness("run", str(ROOT / "sequences" / "routine_single_phase.yaml"), "--sim", "nosuch", data=tmp_path)
+    assert proc.returncode == 2 and proc.stderr.startswith("harness: --sim: no scenario named 'nosuch'")

@@ -178,9 +178,11 @@ def cmd_runs(args: argparse.Namespace) -> int:
         return 0
     from rich.console import Console
     from rich.table import Table
-    table = Table("run_id", "status", "samples", "started", "unit")
+    table = Table("run_id", "status", "exit", "samples", "started (UTC)", "unit")
     for r in rows:
-        table.add_row(r["run_id"], r["status"], str(r["samples"]), str(r["started"]), str(r.get("unit") or ""))
+        started = str(r["started"] or "")[:19].replace("T", " ")
+        exit_code = "" if r.get("exit_code") is None else str(r["exit_code"])
+        table.add_row(r["run_id"], r["status"], exit_code, str(r["samples"]), started, str(r.get("unit") or ""))
     Console().print(table)
     return 0
 

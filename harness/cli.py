@@ -178,12 +178,17 @@ def cmd_runs(args: argparse.Namespace) -> int:
         return 0
     from rich.console import Console
     from rich.table import Table
-    table = Table("run_id", "status", "exit", "samples", "started (UTC)", "unit")
+    table = Table()
+    for column in ("run_id", "status", "exit", "samples", "started (UTC)", "unit"):
+        table.add_column(column, no_wrap=True)
     for r in rows:
         started = str(r["started"] or "")[:19].replace("T", " ")
         exit_code = "" if r.get("exit_code") is None else str(r["exit_code"])
         table.add_row(r["run_id"], r["status"], exit_code, str(r["samples"]), started, str(r.get("unit") or ""))
-    Console().print(table)
+    console = Console()
+    if not console.is_terminal:
+        console = Console(width=120)  # a pipe or a file: no terminal width to fit
+    console.print(table)
     return 0
 
 

@@ -92,6 +92,10 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     except BrokenPipeError:
         return 0
+    except KeyboardInterrupt:
+        # Outside a run's steps (those end in the safe state themselves): nothing is energised here.
+        print("harness: interrupted", file=sys.stderr)
+        return 4
 
 
 def _emit(document: Any) -> None:

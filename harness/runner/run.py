@@ -7,11 +7,9 @@ operator's abort, Ctrl-C or SIGTERM - passes through the same safe-state procedu
 from __future__ import annotations
 
 import contextlib
-import hashlib
 import signal
 import traceback
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Any, Iterator
 
 from drivers.errors import InstrumentError
@@ -19,7 +17,7 @@ from harness import __version__
 from harness.common.clock import Clock
 from harness.runner.sim_station import sim_station
 from harness.config.station import Station
-from harness.runner.bay import Bay, open_bay
+from harness.runner.bay import open_bay
 from harness.runner.context import Run
 from harness.runner.evaluation import evaluate_run
 from harness.runner.prepare import Prepared, RunOptions, prepare
@@ -199,7 +197,3 @@ def _finish(store: Any, run_id: str, status: str, trip: dict[str, Any] | None, r
     report = write_run_reports(store, run_id)
     return RunOutcome(run_id, status, exit_code, trip, results, str(report) if report else None,
                       str(store.path), str(store.run_folder(run_id)), safe, warnings, store.run(run_id)["samples"])
-
-
-def sha256(text: str) -> str:
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()

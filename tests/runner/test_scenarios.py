@@ -6,7 +6,6 @@ correction does the work and its 3 % limit is flagged."""
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import pytest
 

@@ -184,7 +184,8 @@ def _final_safe_state(run: Run):
         outcome = run.make_safe()
     if arrived:
         outcome.notes.append("a stop signal arrived while the bay was made safe; it was held until now")
-    run.event("safe-state", "output off, de-energisation " + ("confirmed" if outcome.confirmed else "NOT confirmed")
+    run.event("safe-state", "source set to zero and output off; de-energisation "
+              + ("confirmed" if outcome.confirmed else "NOT confirmed")
               + f" by {outcome.method}", outcome.as_dict())
     return outcome
 

@@ -10,10 +10,16 @@ from harness.safety import Trip
 class NotConfirmed(Trip):
     """The bay could not be shown de-energised: the run must end as unsafe."""
 
+    def sentence(self) -> str:
+        if self.value is None:
+            return f"{self.cause}: no instrument could measure the bay"
+        return f"{self.cause}: {self.value:.4g} V still measured (de-energised means below {self.limit:.4g} V)"
+
 
 def switch_off(run: Run, why: str) -> None:
     outcome = run.make_safe()
-    run.event("off", f"{why}: output off, " + ("de-energisation confirmed" if outcome.confirmed else "NOT confirmed"),
+    run.event("off", f"{why}: source set to zero and output off; de-energisation "
+              + ("confirmed" if outcome.confirmed else "NOT confirmed"),
               outcome.as_dict())
     if not outcome.confirmed:
         raise NotConfirmed("de-energisation not confirmed after switching off", "voltage", outcome.voltage,

@@ -1,7 +1,7 @@
 """The state of one run and the reading loop every energising step goes through.
 
-snapshot -> wiring ratios -> limit checks -> store -> progress. Nothing reaches a controller
-that has not passed the supervisor.
+snapshot -> wiring ratios -> store -> limit checks -> progress. The sample that trips is kept
+too; nothing reaches a controller that has not passed the supervisor.
 """
 
 from __future__ import annotations

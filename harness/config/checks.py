@@ -110,6 +110,11 @@ class _Checker:
         texts = [step.target] if isinstance(step, Ramp) else step.targets
         for i, text in enumerate(texts):
             where = path + (step.quantity,) + (() if isinstance(step, Ramp) else (i,))
+            named = parse_target(text, "V" if step.quantity == "voltage" else "A").winding
+            if step.quantity == "voltage" and named not in (None, wiring.fed):
+                self.fail(where, f"a voltage target of the {named.upper()} winding while the {wiring.fed.upper()} "
+                                 "winding is fed: the source sets the fed winding's voltage")
+                continue
             value = resolve_target(self.sequence, step, text, wiring.fed)
             self.reachable(step.quantity, value, where, limits, wiring)
 

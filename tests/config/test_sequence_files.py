@@ -114,3 +114,18 @@ def test_check_command_exits_2_without_traceback(tmp_path: Path) -> None:
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr
     assert proc.stderr.startswith(f"{path}:{line_of(path, 'current: 12 V')}:")
+
+
+def test_rated_current_of_the_other_winding_is_the_same_per_unit(tmp_path: Path) -> None:
+    from harness.config.checks import resolve_target
+    path = routine_with(tmp_path, "    current: rated\n", "    current: rated lv\n")
+    prepared = prepare(RunOptions(path))
+    ramp = [s for s in prepared.sequence.steps if s.kind == "ramp" and s.current][0]
+    assert resolve_target(prepared.sequence, ramp, ramp.current, "hv") == pytest.approx(50e3 / 6600)
+
+
+def test_voltage_target_of_the_open_winding_is_refused(tmp_path: Path) -> None:
+    path = routine_with(tmp_path, "    voltage: rated\n", "    voltage: rated hv\n")
+    err = error_of(path)
+    assert err.line == line_of(path, "voltage: rated hv")
+    assert "the source sets the fed winding's voltage" in str(err)

@@ -122,6 +122,9 @@ class SafeOutcome:
 
 Probe = Callable[[], tuple[float, float]]
 
+# The confirmation waits at least this much real time, whatever the simulated clock's speed.
+CONFIRM_FLOOR_REAL_S = 2.0
+
 
 def make_safe(source: Any, probes: list[tuple[str, Probe]], config: SafeState, clock: Clock) -> SafeOutcome:
     """Source to zero, output off, then confirm de-energisation by measurement.
@@ -141,7 +144,7 @@ def make_safe(source: Any, probes: list[tuple[str, Probe]], config: SafeState, c
 
 
 def _confirm(probes: list[tuple[str, Probe]], config: SafeState, clock: Clock, notes: list[str]) -> SafeOutcome:
-    deadline = clock.now() + config.confirm_timeout
+    deadline = clock.now() + clock.at_least_real(config.confirm_timeout, CONFIRM_FLOOR_REAL_S)
     probes = list(probes)
     last: tuple[float, float] | None = None
     method = "none"

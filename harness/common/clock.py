@@ -29,6 +29,15 @@ class Clock:
         """Wait on ``event`` for at most ``bay_seconds``; True if it was set."""
         return event.wait(max(bay_seconds, 0.0) / self.time_scale)
 
+    def at_least_real(self, bay_seconds: float, real_seconds: float) -> float:
+        """A timeout in bay seconds that is never shorter than ``real_seconds`` of real time.
+
+        Host stalls (a disk sync, a busy core) do not speed up with the simulated bay: a timeout
+        that only guards against a stuck process must not fire because the clock runs fast.
+        At time scale 1 this is just ``max`` of the two.
+        """
+        return max(bay_seconds, real_seconds * self.time_scale)
+
     def real(self, bay_seconds: float) -> float:
         """The real-time length of ``bay_seconds`` (for socket timeouts)."""
         return bay_seconds / self.time_scale

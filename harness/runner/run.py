@@ -12,7 +12,7 @@ import traceback
 from dataclasses import dataclass, field
 from typing import Any, Iterator
 
-from drivers.errors import InstrumentError
+from drivers.errors import InstrumentError, InstrumentReportedError
 from harness import __version__
 from harness.common.clock import Clock
 from harness.runner.sim_station import sim_station
@@ -29,6 +29,7 @@ from harness.safety import Trip
 
 EXIT = {"passed": 0, "failed": 1, "tripped": 3, "aborted": 4, "unsafe": 5}
 DEFAULT_SIM_TIME_SCALE = 20.0
+WATCHDOG_FLOOR_REAL_S = 3.0  # the source's watchdog never fires on a host stall shorter than this
 
 
 class Terminated(Exception):
@@ -169,7 +170,11 @@ def _arm_source_protection(run: Run) -> None:
     source, station = run.bay.source, run.station
     source.set_current_protection(station.limits.current)
     if station.safe_state.source_watchdog is not None and source.has_watchdog:
-        source.set_watchdog(station.safe_state.source_watchdog)
+        seconds = run.clock.at_least_real(station.safe_state.source_watchdog, WATCHDOG_FLOOR_REAL_S)
+        try:
+            source.set_watchdog(seconds)
+        except InstrumentReportedError as exc:
+            run.warn(f"the source refused a {seconds:g} s watchdog ({exc.text}); it is left disarmed")
 
 
 def _trip(run: Run, exc: Trip) -> dict[str, Any]:

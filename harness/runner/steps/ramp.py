@@ -15,6 +15,7 @@ from harness.runner.context import Run, Sample
 from harness.runner.steps import register
 from harness.safety import Trip
 
+RAMP_FLOOR_REAL_S = 10.0
 RAMP_AVERAGING_S = 0.05     # analyser update interval while ramping (bay seconds)
 SETTLED_READINGS = 3        # distinct readings within half the tolerance band count as settled ...
 SETTLED_WINDOW_FACTOR = 2   # ... over at least this many of the analyser's measuring intervals
@@ -112,8 +113,11 @@ def _settled(applied: list[tuple[float, float]], spread: float, window: float) -
 
 
 def _time_allowed(run: Run, goal_volts: float) -> float:
+    """Time for a ramp: five times the slew-limited time plus ten seconds, and never less than
+    RAMP_FLOOR_REAL_S of real time (a host stall must not pass for a ramp that cannot settle)."""
     slew = run.station.limits.slew
-    return 10.0 + 5.0 * min(goal_volts, run.supervisor.limits.voltage) / slew
+    bay = 10.0 + 5.0 * min(goal_volts, run.supervisor.limits.voltage) / slew
+    return run.clock.at_least_real(bay, RAMP_FLOOR_REAL_S)
 
 
 def _fixed_increment(run: Run, quantity: str, target: float, tolerance_pct: float) -> RampResult:

@@ -22,7 +22,9 @@ M = TypeVar("M", bound=BaseModel)
 class LoadedYaml:
     """Plain data of a YAML document and the marks of its nodes, keyed by path."""
 
-    def __init__(self, data: Any, marks: dict[Path_, tuple[int, int]], key_marks: dict[Path_, tuple[int, int]], file: str):
+    def __init__(self, data: Any, marks: dict[Path_, tuple[int, int]], key_marks: dict[Path_, tuple[int, int]], file: str,
+                 text: str = ""):
+        self.text = text  # as read, for hashing and storing beside the run
         self.data = data
         self.marks = marks
         self.key_marks = key_marks
@@ -80,7 +82,7 @@ def load_text(text: str, file: str = "<input>") -> LoadedYaml:
         raise InputError(f"YAML: {exc}", file, 1, 1) from exc
     finally:
         loader.dispose()
-    return LoadedYaml(data, marks, key_marks, file)
+    return LoadedYaml(data, marks, key_marks, file, text)
 
 
 def load_file(path: str | Path) -> LoadedYaml:

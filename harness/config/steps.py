@@ -135,5 +135,3 @@ AnyStep = Annotated[
     Field(discriminator="kind"),
 ]
 Repeat.model_rebuild()
-
-ENERGISING = (Ramp, Sweep, Hold)

@@ -72,7 +72,6 @@ class Run:
     step_index: int = -1
     step_title: str = ""
     last_sample: Sample | None = None
-    temperatures: dict[str, float] = field(default_factory=dict)
     resistances: dict[str, tuple[float, float]] = field(default_factory=dict)
     readings: list[MeasuredReading] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
@@ -80,6 +79,7 @@ class Run:
     _next_temperature_t: float = 0.0
     _next_source_t: float = 0.0
     _ranges: tuple[float, float] = (0.0, 0.0)
+    _refused_ranges: tuple[float, float] = (0.0, 0.0)
     update_interval: float = 0.2
     measure_averaging: float = 0.2
 
@@ -137,15 +137,20 @@ class Run:
             self.bay.analyser.set_averaging(seconds)
             self.update_interval = seconds
 
+    @property
+    def ranges(self) -> tuple[float, float] | None:
+        """The analyser ranges last requested (V, A at its inputs), None before any."""
+        return self._ranges if all(self._ranges) else None
+
     def _set_ranges(self, volts: float, amps: float) -> None:
-        if (volts, amps) == self._ranges:
+        if (volts, amps) in (self._ranges, self._refused_ranges):
             return
         try:
             self.bay.analyser.set_ranges(voltage=volts, current=amps)
             self._ranges = (volts, amps)
         except InstrumentReportedError as exc:
             self.warn(f"analyser refused ranges for {volts:.4g} V / {amps:.4g} A ({exc.text}); ranges left as they were")
-            self._ranges = (volts, amps)
+            self._refused_ranges = (volts, amps)  # asked once; the ranges in force are unchanged
 
     # -- readings ---------------------------------------------------------------------------
     def read(self, tag: str | None = None) -> Sample:
@@ -192,7 +197,6 @@ class Run:
         value = thermometer.read(spec.channels[name])
         if not math.isfinite(value):
             raise ReadingFault(f"thermometer channel '{name}' is not a number", step=self.step_title)
-        self.temperatures[name] = value
         return value
 
     def winding_temperature(self) -> float | None:

@@ -11,8 +11,8 @@ from harness.common.errors import InputError, UsageError
 from harness.common.yamlio import LoadedYaml, load_file, validate
 from harness.config.checks import check
 from harness.config.sequence import Sequence
-from harness.runner.sim_station import SIM_STATION_FILE, sim_station
 from harness.config.station import Station
+from harness.runner.sim_station import SIM_STATION_FILE, sim_station
 
 
 @dataclass
@@ -54,14 +54,14 @@ def prepare(options: RunOptions) -> Prepared:
         station_file = SIM_STATION_FILE
     else:
         st_loaded = load_file(options.station)
-        station, station_text, station_file = validate(Station, st_loaded), _text(options.station), str(options.station)
+        station, station_text, station_file = validate(Station, st_loaded), st_loaded.text, str(options.station)
     check(sequence, station, loaded)
     if options.yes and not station.simulated:
         raise InputError("--yes answers prompts only on the simulated bay; a real bay needs its operator",
                          station_file, 1, 1)
     if options.time_scale not in (None, 1.0) and not station.simulated:
         raise InputError("--time-scale is for the simulated bay only; a real bay runs in real time", station_file, 1, 1)
-    return Prepared(sequence, _text(options.sequence), station, station_text, station_file, scenario)
+    return Prepared(sequence, loaded.text, station, station_text, station_file, scenario)
 
 
 def _not_a_record(loaded: LoadedYaml) -> None:
@@ -71,7 +71,5 @@ def _not_a_record(loaded: LoadedYaml) -> None:
                                "'harness evaluate'")
 
 
-def _text(path: Path) -> str:
-    return Path(path).read_text(encoding="utf-8")
 
 

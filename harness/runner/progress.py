@@ -5,7 +5,6 @@ A live rich panel on a terminal; plain event lines otherwise (CI, pipes, --json 
 
 from __future__ import annotations
 
-import sys
 import time
 from typing import Any
 
@@ -71,6 +70,3 @@ class Progress:
                           f"headroom {100 * headroom[0]:5.1f} % ({headroom[1]})   set {s.setpoint:8.4g} V")
         return table
 
-
-def is_interactive() -> bool:
-    return sys.stdin.isatty()

@@ -26,18 +26,17 @@ def write_run_reports(store: Any, run_id: str) -> Path:
 
 
 def run_bundle(store: Any, run_id: str) -> ReportBundle:
-    row = store.run(run_id)
+    row = store.run(run_id)  # the run with its steps, events, instruments and readings
     sequence = _yaml(row.get("sequence_text"))
-    events = store.events(run_id)
+    events, steps = row["events"], row["steps"]
     results = row.get("results") or {}
-    steps = store.steps(run_id)
     labels = {st["step_index"]: f"{st['step_index'] + 1}: {st['name']}" for st in steps}
     return ReportBundle(
         run=_run_meta(row, sequence),
         unit=unit_of(sequence),
-        instruments=[_instrument(i) for i in store.instruments(run_id)],
+        instruments=[_instrument(i) for i in row["instruments"]],
         results=results,
-        readings=[_reading(r, labels) for r in store.readings(run_id)],
+        readings=[_reading(r, labels) for r in row["readings"]],
         traces=_traces(store.samples(run_id), steps, events, labels),
         sweep=list(results.get("sweep", [])),
         events=[_event(e) for e in events if e["kind"] not in ("step-start", "step-end")],

@@ -166,9 +166,10 @@ def _start_at_zero(run: Run) -> None:
 
 def _arm_source_protection(run: Run) -> None:
     """The source's own protection as a backstop below the software: its current trip at the bay's
-    hard current limit, and its communication watchdog."""
+    hard current limit, its slew limited to the bay's, and its communication watchdog."""
     source, station = run.bay.source, run.station
     source.set_current_protection(station.limits.current)
+    source.set_slew(station.limits.slew)  # the bay's fastest allowed change, for every ramp
     if station.safe_state.source_watchdog is not None and source.has_watchdog:
         seconds = run.clock.at_least_real(station.safe_state.source_watchdog, WATCHDOG_FLOOR_REAL_S)
         try:

@@ -20,7 +20,9 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
             max_readings: int, target_pct: float | None = None) -> MeasuredReading:
     window: list[Sample] = []
     temps: list[float] = []
-    stats: dict = {}
+    mean: dict[str, float] = {}
+    std: dict[str, float] = {}
+    spread = float("inf")
     run.use_averaging(run.measure_averaging)
     if run.last_sample is not None:
         run.fit_ranges(run.last_sample)
@@ -33,15 +35,14 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
                 temps.append(t)
         window = window[-readings:]
         if len(window) == readings:
-            stats = _stats(window)
-            if stats["stable"](stability_pct):
+            mean, std, spread = _stats(window)
+            if spread <= stability_pct:
                 break
-    stable = stats["stable"](stability_pct)
+    stable = spread <= stability_pct
     if not stable:
         run.warn(f"{label}: readings not stable within {stability_pct:g} % after {max_readings} readings")
-    result = MeasuredReading(test, label, run.step_index, run.fed, len(window), stats["mean"], stats["std"],
-                             stable, float(np.mean(temps[-readings:])) if temps else None, target_pct,
-                             run._ranges if all(run._ranges) else None)
+    result = MeasuredReading(test, label, run.step_index, run.fed, len(window), mean, std, stable,
+                             float(np.mean(temps[-readings:])) if temps else None, target_pct, run.ranges)
     stored = {f"{q}_{kind}": values[q] for kind, values in (("mean", result.mean), ("std", result.std)) for q in QUANTITIES}
     run.store.add_reading(run.run_id, run.step_index, label, window[0].id, window[-1].id,
                           {**stored, "count": result.count, "stable": stable})
@@ -49,13 +50,14 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
     return result
 
 
-def _stats(window: list[Sample]) -> dict:
+def _stats(window: list[Sample]) -> tuple[dict[str, float], dict[str, float], float]:
+    """Means and standard deviations of the window, and the largest relative s.d. of U, I, P in %."""
     columns = {q: np.fromiter((getattr(s, q) for s in window), float, len(window)) for q in QUANTITIES}
     reduced = {q: window_stats(values) for q, values in columns.items()}
     mean = {q: r["mean"] for q, r in reduced.items()}
     std = {q: r["std"] for q, r in reduced.items()}
-    rel = max(abs(std[q]) / abs(mean[q]) * 100 if mean[q] else float("inf") for q in ("u_rms", "i_rms", "p"))
-    return {"mean": mean, "std": std, "stable": lambda pct: rel <= pct}
+    spread = max(abs(std[q]) / abs(mean[q]) * 100 if mean[q] else float("inf") for q in ("u_rms", "i_rms", "p"))
+    return mean, std, spread
 
 
 @register("measure")

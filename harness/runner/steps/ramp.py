@@ -50,7 +50,6 @@ def ramp_to(run: Run, quantity: str, target: float, tolerance_pct: float, method
     run.range_for_limits()
     run.use_averaging(RAMP_AVERAGING_S)
     run.energise()
-    run.bay.source.set_slew(run.station.limits.slew)
     if method == "fixed-increment":
         return _fixed_increment(run, quantity, target, tolerance_pct)
     return _learned(run, quantity, target, tolerance_pct)

@@ -104,21 +104,33 @@ def _emit(document: Any) -> None:
 
 def cmd_run(args: argparse.Namespace) -> int:
     from harness.runner.run import RunOptions, execute
+    from harness.runner.signals import StopSignals
     from harness.runner.summary import print_outcome
     from harness.store import Store
 
     options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes, quiet=args.json)
     _check_faults(options)
     store = Store()
-    try:
-        outcome = execute(options, store)
-    finally:
-        store.close()
-    if args.json:
-        _emit(outcome.as_dict())
-    else:
-        print_outcome(outcome)
+    # From here until the outcome is printed, a stop signal stops only the steps: it can never
+    # cut the safe state, the run's record or its report short, nor change a finished run's exit code.
+    with StopSignals() as signals:
+        try:
+            outcome = execute(options, store, signals)
+        finally:
+            _close_after_run(store)
+        if args.json:
+            _emit(outcome.as_dict())
+        else:
+            print_outcome(outcome)
     return outcome.exit_code
+
+
+def _close_after_run(store: Any) -> None:
+    """A store that failed during the run fails again here; the run's outcome stands and is printed."""
+    try:
+        store.close()
+    except HarnessError as exc:
+        print(f"harness: {exc}", file=sys.stderr)
 
 
 def _check_faults(options: Any) -> None:

@@ -89,6 +89,17 @@ class Run:
         self.base_limits = limits
         self.supervisor = Supervisor(limits, self.station.readings, self.clock)
 
+    # -- faults of the run's own parts ------------------------------------------------------------
+    def raise_pending(self) -> None:
+        """A failure of the store or of the progress display, held where it happened (so that it
+        never breaks the safe path), is raised here, at the run's next step forward."""
+        for part in (self.store, self.progress):
+            fault = part.pending_fault() if hasattr(part, "pending_fault") else None
+            if fault is not None:
+                fault.step = fault.step or self.step_title
+                fault.time = fault.time if fault.time is not None else self.clock.now()
+                raise fault
+
     # -- limits -----------------------------------------------------------------------------
     def use_limits(self, limits: EffectiveLimits, title: str) -> None:
         self.supervisor.limits = limits
@@ -154,6 +165,7 @@ class Run:
 
     # -- readings ---------------------------------------------------------------------------
     def read(self, tag: str | None = None) -> Sample:
+        self.raise_pending()
         t0 = self.clock.now()
         snap = self.bay.analyser.snapshot()
         t1 = self.clock.now()

@@ -13,7 +13,39 @@ from rich.live import Live
 from rich.markup import escape
 from rich.table import Table
 
+from harness.safety import Trip
+
 REFRESH_S = 0.1
+
+
+class GuardedDisplay:
+    """The progress display, kept from breaking the run: a display that fails (a closed
+    terminal, a bug of ours) is switched off at once and its failure held as a trip, which the
+    runner raises at its next step forward, so the run stops through the safe state. Calls made
+    while the bay is made safe never raise."""
+
+    def __init__(self, display: Any):
+        self.display = display
+        self.failure: str | None = None
+        self._fault: Trip | None = None
+
+    def pending_fault(self) -> Trip | None:
+        fault, self._fault = self._fault, None
+        return fault
+
+    def __getattr__(self, name: str) -> Any:
+        method = getattr(self.display, name)
+
+        def call(*args: Any, **kwargs: Any) -> Any:
+            if self.failure is not None:
+                return None
+            try:
+                return method(*args, **kwargs)
+            except Exception as exc:  # noqa: BLE001 - any failure of the display stops the run safely
+                self.failure = f"progress display failed: {exc!r}"
+                self._fault = Trip(self.failure)
+                return None
+        return call
 
 
 class Progress:

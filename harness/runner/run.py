@@ -7,9 +7,9 @@ operator's abort, Ctrl-C or SIGTERM - passes through the same safe-state procedu
 from __future__ import annotations
 
 import contextlib
-import signal
 import traceback
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any, Iterator
 
 from drivers.errors import InstrumentError, InstrumentReportedError
@@ -21,19 +21,17 @@ from harness.runner.bay import open_bay
 from harness.runner.context import Run
 from harness.runner.evaluation import evaluate_run
 from harness.runner.prepare import Prepared, RunOptions, prepare
-from harness.runner.progress import Progress
+from harness.runner.progress import GuardedDisplay, Progress
+from harness.runner.recorder import Recorder
+from harness.runner.signals import StopSignals, Terminated
 from harness.runner.sequencer import run_steps
 from harness.runner.steps.off import NotConfirmed
 from harness.runner.steps.prompt import OperatorAbort
-from harness.safety import Trip
+from harness.safety import SafeOutcome, Trip
 
 EXIT = {"passed": 0, "failed": 1, "tripped": 3, "aborted": 4, "unsafe": 5}
 DEFAULT_SIM_TIME_SCALE = 20.0
 WATCHDOG_FLOOR_REAL_S = 3.0  # the source's watchdog never fires on a host stall shorter than this
-
-
-class Terminated(Exception):
-    """SIGTERM arrived: handled like Ctrl-C."""
 
 
 @contextlib.contextmanager
@@ -44,30 +42,6 @@ def simulated_bay(prepared: Prepared, options: RunOptions, clock: Clock) -> Iter
     scenario = prepared.scenario
     with SimServer(SimBay(scenario, clock, faults=options.faults)) as server:
         yield sim_station(server.resources(), scenario)
-
-
-@contextlib.contextmanager
-def signals_raise() -> Iterator[None]:
-    """SIGTERM raises like Ctrl-C while the steps run."""
-    def on_term(signum: int, frame: Any) -> None:
-        raise Terminated("terminated by SIGTERM")
-    previous = signal.signal(signal.SIGTERM, on_term)
-    try:
-        yield
-    finally:
-        signal.signal(signal.SIGTERM, previous)
-
-
-@contextlib.contextmanager
-def signals_held() -> Iterator[list[int]]:
-    """While the bay is made safe, Ctrl-C and SIGTERM are noted, not obeyed."""
-    arrived: list[int] = []
-    handlers = {s: signal.signal(s, lambda signum, frame: arrived.append(signum)) for s in (signal.SIGINT, signal.SIGTERM)}
-    try:
-        yield arrived
-    finally:
-        for s, h in handlers.items():
-            signal.signal(s, h)
 
 
 @dataclass
@@ -83,55 +57,72 @@ class RunOutcome:
     safe_state: dict[str, Any] | None
     warnings: list[str] = field(default_factory=list)
     samples: int = 0
+    journal: str | None = None
+    """Where the samples and events the store could not take went (None: the store took everything)."""
+    notes: list[str] = field(default_factory=list)
 
     def as_dict(self) -> dict[str, Any]:
         return dict(self.__dict__)
 
 
-def execute(options: RunOptions, store: Any) -> RunOutcome:
-    prepared = prepare(options)
-    simulated = options.station is None
-    scale = options.time_scale or (DEFAULT_SIM_TIME_SCALE if prepared.station.simulated else 1.0)
-    clock = Clock(scale)
+def execute(options: RunOptions, store: Any, signals: StopSignals | None = None) -> RunOutcome:
+    """Run a sequence. Ctrl-C and SIGTERM stop the steps and are held everywhere else; give
+    ``signals`` to hold them also while the caller prints the outcome."""
     with contextlib.ExitStack() as stack:
-        station, station_text = prepared.station, prepared.station_text
-        if simulated:
-            station, station_text = stack.enter_context(simulated_bay(prepared, options, clock))
+        if signals is None:
+            signals = stack.enter_context(StopSignals())
+        with signals.obeyed():  # nothing is begun or energised yet: a stop simply stops
+            prepared = prepare(options)
+            scale = options.time_scale or (DEFAULT_SIM_TIME_SCALE if prepared.station.simulated else 1.0)
+            clock = Clock(scale)
+            station, station_text = prepared.station, prepared.station_text
+            if options.station is None:
+                station, station_text = stack.enter_context(simulated_bay(prepared, options, clock))
         run_id = store.begin_run(
             unit=prepared.sequence.unit.serial, lab=station.lab, station_name=station.name,
             sequence_text=prepared.sequence_text, station_text=station_text, software_version=__version__,
             simulated={"scenario": options.scenario, "faults": list(options.faults), "time_scale": scale} if station.simulated else None)
-        progress = stack.enter_context(Progress(quiet=options.quiet))
-        return _run_on_bay(run_id, prepared, station, clock, store, progress, options)
+        progress = GuardedDisplay(stack.enter_context(Progress(quiet=options.quiet)))
+        recorder = Recorder(store, run_id)
+        try:
+            return _run_on_bay(run_id, prepared, station, clock, recorder, progress, options, signals)
+        finally:
+            recorder.close()
 
 
-def _run_on_bay(run_id: str, prepared: Prepared, station: Station, clock: Clock, store: Any,
-                progress: Progress, options: RunOptions) -> RunOutcome:
+def _run_on_bay(run_id: str, prepared: Prepared, station: Station, clock: Clock, recorder: Recorder,
+                progress: GuardedDisplay, options: RunOptions, signals: StopSignals) -> RunOutcome:
+    never = {"confirmed": True, "method": "never energised", "notes": []}
     try:
-        bay = open_bay(station)
+        with signals.obeyed():
+            bay = open_bay(station)
     except InstrumentError as exc:
-        return _finish(store, run_id, "tripped", Trip(f"instrument fault before energising: {exc}").as_dict(), None, None,
-                       {"confirmed": True, "method": "never energised", "notes": []}, [])
-    store.set_instruments(run_id, bay.identities)
-    run = Run(run_id, prepared.sequence, station, clock, bay, store, progress, yes=options.yes)
+        trip = Trip(f"instrument fault before energising: {exc}").as_dict()
+        return _finish(recorder, run_id, "tripped", trip, None, None, never, [], signals)
+    except (KeyboardInterrupt, Terminated) as exc:
+        return _finish(recorder, run_id, "aborted", None, None, None, never, [f"{exc or 'interrupted by Ctrl-C'}"], signals)
+    recorder.set_instruments(run_id, bay.identities)
+    run = Run(run_id, prepared.sequence, station, clock, bay, recorder, progress, yes=options.yes)
     try:
-        status, trip = _steps(run)
-        safe = _final_safe_state(run)
+        status, trip = _steps(run, signals)
+        safe = _final_safe_state(run, signals)
     finally:
         bay.close()
     if not safe.confirmed:
         status = "unsafe"
         run.event("unsafe", "DE-ENERGISATION NOT CONFIRMED: THE BAY MAY STILL BE LIVE. Treat it as live; "
                             "isolate and earth it by hand before anyone approaches.", safe.as_dict())
-    record, results = evaluate_run(run)
+    status, trip = _late_faults(run, status, trip)
+    record, results, status, trip = _evaluate(run, status, trip)
     if status == "passed" and results and not all(c["passed"] for c in results.get("checks", [])):
         status = "failed"
-    return _finish(store, run_id, status, trip, record, results, safe.as_dict(), run.warnings)
+    return _finish(recorder, run_id, status, trip, record, results, safe.as_dict(), run.warnings, signals)
 
 
-def _steps(run: Run) -> tuple[str, dict[str, Any] | None]:
+def _steps(run: Run, signals: StopSignals) -> tuple[str, dict[str, Any] | None]:
     try:
-        with signals_raise():
+        with signals.obeyed():
+            run.raise_pending()
             _start_at_zero(run)
             run_steps(run.sequence.steps, run)
         return "passed", None
@@ -148,6 +139,30 @@ def _steps(run: Run) -> tuple[str, dict[str, Any] | None]:
     except Exception as exc:  # noqa: BLE001 - any failure still ends in the safe state
         run.event("error", traceback.format_exc(limit=8))
         return "tripped", _trip(run, Trip(f"internal error: {exc!r}", step=run.step_title, time=run.clock.now()))
+
+
+def _late_faults(run: Run, status: str, trip: dict[str, Any] | None) -> tuple[str, dict[str, Any] | None]:
+    """A part that failed while the bay was made safe (the store, the display) after steps that
+    completed: the run cannot stand as completed."""
+    try:
+        run.raise_pending()
+    except Trip as exc:
+        if status == "passed":
+            return "tripped", _trip(run, exc)
+        run.event("error", f"also: {exc.sentence()}")
+    return status, trip
+
+
+def _evaluate(run: Run, status: str, trip: dict[str, Any] | None) -> tuple[Any, Any, str, dict[str, Any] | None]:
+    """The evaluation runs after the bay is safe; its failure ends the run as tripped, not as a traceback."""
+    try:
+        record, results = evaluate_run(run)
+        return record, results, status, trip
+    except Exception as exc:  # noqa: BLE001 - a bug of ours in the evaluation: the run still ends cleanly
+        run.event("error", traceback.format_exc(limit=8))
+        if status == "passed":
+            status, trip = "tripped", _trip(run, Trip(f"the evaluation failed: {exc!r}", step="evaluation"))
+        return None, None, status, trip
 
 
 def _start_at_zero(run: Run) -> None:
@@ -185,10 +200,10 @@ def _trip(run: Run, exc: Trip) -> dict[str, Any]:
     return trip
 
 
-def _final_safe_state(run: Run):
-    with signals_held() as arrived:
-        outcome = run.make_safe()
-    if arrived:
+def _final_safe_state(run: Run, signals: StopSignals) -> SafeOutcome:
+    before = len(signals.arrived)
+    outcome = run.make_safe()  # stop signals are held here: never obeyed while the bay is made safe
+    if len(signals.arrived) > before:
         outcome.notes.append("a stop signal arrived while the bay was made safe; it was held until now")
     run.event("safe-state", "source set to zero and output off; de-energisation "
               + ("confirmed" if outcome.confirmed else "NOT confirmed")
@@ -196,11 +211,46 @@ def _final_safe_state(run: Run):
     return outcome
 
 
-def _finish(store: Any, run_id: str, status: str, trip: dict[str, Any] | None, record: dict[str, Any] | None,
-            results: dict[str, Any] | None, safe: dict[str, Any] | None, warnings: list[str]) -> RunOutcome:
-    exit_code = EXIT[status]
-    store.finish_run(run_id, status, exit_code, trip, record, results)
+def _finish(recorder: Recorder, run_id: str, status: str, trip: dict[str, Any] | None, record: dict[str, Any] | None,
+            results: dict[str, Any] | None, safe: dict[str, Any] | None, warnings: list[str],
+            signals: StopSignals) -> RunOutcome:
+    """Record the run's end and write its report; a report that cannot be written ends the run as
+    tripped, so the exit code, the store and the report always agree."""
+    recorder.finish_run(run_id, status, EXIT[status], trip, record, results)
+    notes = [f"a stop signal ({', '.join(signals.names())}) arrived after the steps had ended; it was held"
+             ] if signals.held_after_steps else []
+    report = None
+    if recorder.failed:
+        notes.append(recorder.where())
+    else:
+        report, status, trip = _report(recorder, run_id, status, trip)
+    return RunOutcome(run_id, status, EXIT[status], trip, results, str(report) if report else None,
+                      str(recorder.path), str(recorder.run_folder(run_id)), safe, warnings, _samples(recorder, run_id),
+                      str(recorder.journal.path) if recorder.journal.path else None, notes)
+
+
+def _report(recorder: Recorder, run_id: str, status: str, trip: dict[str, Any] | None
+            ) -> tuple[Path | None, str, dict[str, Any] | None]:
     from harness.runner.reporting import write_run_reports
-    report = write_run_reports(store, run_id)
-    return RunOutcome(run_id, status, exit_code, trip, results, str(report) if report else None,
-                      str(store.path), str(store.run_folder(run_id)), safe, warnings, store.run(run_id)["samples"])
+    store = recorder.store
+    try:
+        return write_run_reports(store, run_id), status, trip
+    except Exception as exc:  # noqa: BLE001 - the report writer failed: said in the store, the exit code and a new try
+        failure = Trip(f"the report could not be written: {exc!r}", step="report")
+        if status in ("passed", "failed"):
+            status, trip = "tripped", failure.as_dict()
+        try:
+            store.add_event(run_id, None, "error", failure.sentence() + "\n" + traceback.format_exc(limit=8))
+            store.amend_outcome(run_id, status, EXIT[status], trip)
+            return write_run_reports(store, run_id), status, trip
+        except Exception:  # noqa: BLE001 - it failed twice: the outcome printed is all there is
+            return None, status, trip
+
+
+def _samples(recorder: Recorder, run_id: str) -> int:
+    if recorder.failed:
+        return recorder.samples_taken
+    try:
+        return int(recorder.store.run(run_id)["samples"])
+    except Exception:  # noqa: BLE001 - the count is for the message only
+        return recorder.samples_taken

@@ -16,8 +16,10 @@ def run_steps(steps: list[Any], run: Run, limits=None) -> None:
         title = step.title()
         run.step_title = title
         run.use_limits(outer.tightened(step.limits), title)
+        run.raise_pending()
         run.store.begin_step(run.run_id, index, step.kind, title)
         run.progress.step(index, step.kind, title)
+        run.raise_pending()
         limits = run.supervisor.limits
         run.store.add_event(run.run_id, run.clock.now(), "step-start", f"{step.kind}: {title}",
                             {"step": index, "kind": step.kind, "limits": {

@@ -23,6 +23,10 @@ def print_outcome(outcome: RunOutcome) -> None:
     if outcome.results:
         from harness.calc.table import render_results_dict
         render_results_dict(outcome.results, console)
+    for note in outcome.notes:
+        console.print(f"  [yellow]note:[/] {note}")
     console.print(f"  samples kept: {outcome.samples}")
+    if outcome.journal:
+        console.print(f"  [bold]journal:[/] {outcome.journal}  (what the store could not take)")
     console.print(f"  report: {outcome.report}")
     console.print(f"  store:  {outcome.database}")

@@ -26,7 +26,7 @@ from typing import Any, Iterator
 
 import numpy as np
 
-from harness.store import export, rows
+from harness.store import export, journal, rows
 from harness.store.errors import AmbiguousRunError, StoreError, UnknownRunError
 from harness.store.paths import DATABASE_NAME, data_dir, ensure_folder, new_run_id, run_folder
 from harness.store.process import host_name, process_token, still_running
@@ -213,6 +213,22 @@ class Store:
         with self._transaction():
             pass
 
+    def uncommitted(self, run_id: str) -> list[dict[str, Any]]:
+        """The run's samples buffered and not yet committed (all of them after a failed commit)."""
+        return [dict(zip(journal.SAMPLE_FIELDS, row)) for row in self._pending[:] if row[0] == run_id]
+
+    def amend_outcome(self, run_id: str, status: str, exit_code: int, trip: Any) -> None:
+        """Change a finished run's outcome: only when what follows the run's end fails (its report)."""
+        if status not in rows.FINAL_STATUSES:
+            raise StoreError(f"a run ends as one of {', '.join(rows.FINAL_STATUSES)}, not {status!r}")
+        with self._transaction() as conn:
+            conn.execute("UPDATE runs SET status = ?, exit_code = ?, trip = ? WHERE run_id = ?",
+                         (status, rows.index(exit_code, "exit code"), rows.to_json(trip), run_id))
+
+    def journal(self, run_id: str) -> Path | None:
+        """The run's journal, when the store failed during it (see harness.store.journal)."""
+        return journal.find_journal(run_id, self.folder)
+
     def finish_run(self, run_id: str, status: str, exit_code: int, trip: Any, record: Any, results: Any) -> None:
         if status not in rows.FINAL_STATUSES:
             raise StoreError(f"a run ends as one of {', '.join(rows.FINAL_STATUSES)}, not {status!r}")
@@ -232,8 +248,8 @@ class Store:
         self.flush()
         found = self._query("SELECT run_id, status, samples, started, unit, exit_code, pid, host, process_token "
                             "FROM runs ORDER BY run_id")
-        return [{k: v for k, v in _with_visible_status(r).items() if k not in ("pid", "host", "process_token")}
-                for r in found]
+        return [{**{k: v for k, v in _with_visible_status(r).items() if k not in ("pid", "host", "process_token")},
+                 "journal": _optional_path(self.journal(r["run_id"]))} for r in found]
 
     def run(self, run_id_or_prefix: str) -> dict[str, Any]:
         """Everything about one run but its raw samples (see :meth:`samples`)."""
@@ -390,6 +406,10 @@ def _require_run(conn: sqlite3.Connection, run_id: str, *, running: bool = True)
         raise UnknownRunError(f"no run '{run_id}' in the store; call begin_run first")
     if running and row[0] != "running":
         raise StoreError(f"run {run_id} is finished ({row[0]}); it cannot be changed")
+
+
+def _optional_path(path: Path | None) -> str | None:
+    return None if path is None else str(path)
 
 
 def _with_visible_status(run: dict[str, Any]) -> dict[str, Any]:

@@ -174,8 +174,12 @@ def cmd_report(args: argparse.Namespace) -> int:
     from harness.store import Store
     store = Store()
     try:
-        run_id = Path(args.run).name if Path(args.run).is_dir() else args.run
-        path = write_run_reports(store, store.run(run_id)["run_id"])
+        run_id = store.resolve(Path(args.run).name if Path(args.run).is_dir() else args.run)
+        journal = store.journal(run_id)
+        if journal is not None:
+            print(f"harness: the store failed during run {run_id}; this report lacks what is in {journal}",
+                  file=sys.stderr)
+        path = write_run_reports(store, run_id)
     finally:
         store.close()
     print(path)
@@ -205,6 +209,10 @@ def cmd_runs(args: argparse.Namespace) -> int:
     if not console.is_terminal:
         console = Console(width=120)  # a pipe or a file: no terminal width to fit
     console.print(table)
+    for r in rows:
+        if r.get("journal"):
+            console.print(f"run {r['run_id']}: the store failed during this run; what it could not take "
+                          f"is in {r['journal']}", soft_wrap=True)
     return 0
 
 

@@ -12,6 +12,7 @@ from harness.common.yamlio import LoadedYaml, load_file, validate
 from harness.config.checks import check
 from harness.config.sequence import Sequence
 from harness.config.station import Station
+from harness.runner import steps as _steps  # noqa: F401 - a step model without an executor fails here, before check passes
 from harness.runner.sim_station import SIM_STATION_FILE, sim_station
 
 

@@ -217,13 +217,12 @@ def _finish(recorder: Recorder, run_id: str, status: str, trip: dict[str, Any] |
     """Record the run's end and write its report; a report that cannot be written ends the run as
     tripped, so the exit code, the store and the report always agree."""
     recorder.finish_run(run_id, status, EXIT[status], trip, record, results)
-    notes = [f"a stop signal ({', '.join(signals.names())}) arrived after the steps had ended; it was held"
-             ] if signals.held_after_steps else []
     report = None
-    if recorder.failed:
-        notes.append(recorder.where())
-    else:
+    if not recorder.failed:
         report, status, trip = _report(recorder, run_id, status, trip)
+    notes = [recorder.where()] if recorder.failed else []
+    if signals.held_after_steps:
+        notes.append(f"a stop signal ({', '.join(signals.names())}) arrived after the steps had ended; it was held")
     return RunOutcome(run_id, status, EXIT[status], trip, results, str(report) if report else None,
                       str(recorder.path), str(recorder.run_folder(run_id)), safe, warnings, _samples(recorder, run_id),
                       str(recorder.journal.path) if recorder.journal.path else None, notes)

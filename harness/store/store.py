@@ -279,7 +279,7 @@ class Store:
         """The run's raw samples, one array per column of rows.SAMPLE_COLUMNS, in id order."""
         run_id = self.resolve(run_id)
         self.flush()
-        with self._lock:
+        with self._lock, _mapped_errors(self.path):
             found = self._conn.execute(f"SELECT {', '.join(rows.SAMPLE_COLUMNS)} FROM samples WHERE run_id = ? "
                                        "ORDER BY id", (run_id,)).fetchall()
         return rows.sample_columns(found)
@@ -306,7 +306,7 @@ class Store:
         run_id = self.resolve(run_id)
         self.flush()
         target = export.target(path, run_id, "csv")
-        with self._lock:
+        with self._lock, _mapped_errors(self.path):
             cursor = self._conn.execute(f"SELECT {', '.join(rows.SAMPLE_COLUMNS)} FROM samples "
                                         "WHERE run_id = ? ORDER BY id", (run_id,))
             return export.write_csv(cursor, target)
@@ -394,6 +394,14 @@ class Store:
             self._flusher = _Flusher(self, self._interval_s)
             self._flusher.start()
         return counter
+
+
+@contextmanager
+def _mapped_errors(path: Path) -> Iterator[None]:
+    try:
+        yield
+    except sqlite3.Error as exc:
+        raise StoreError(f"{path}: {exc}") from exc
 
 
 def _this_process() -> dict[str, Any]:

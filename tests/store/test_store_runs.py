@@ -62,7 +62,7 @@ def test_finish_run_keeps_status_trip_record_and_results(store):
     assert run["record"] == {"no_load": {"power": 160.0}} and run["results"] == {"warnings": []}
     listed = store.runs()
     assert listed == [{"run_id": run_id, "status": "tripped", "samples": 0, "started": run["started"],
-                       "unit": RUN_FIELDS["unit"], "exit_code": 3}]
+                       "unit": RUN_FIELDS["unit"], "exit_code": 3, "journal": None}]
 
 
 def test_a_finished_run_takes_no_more_samples_or_steps(store):

@@ -25,6 +25,27 @@ def execute(step: Any, run: Any) -> None:
     REGISTRY[step.kind](step, run)
 
 
+def step_kinds() -> set[str]:
+    """Every kind a sequence may name: the ``kind`` literals of the step models' union."""
+    from typing import get_args
+
+    from harness.config.steps import AnyStep
+    union = get_args(AnyStep)[0]
+    return {kind for model in get_args(union) for kind in get_args(model.model_fields["kind"].annotation)}
+
+
+def check_registry(registry: dict[str, Executor]) -> None:
+    """A step model without an executor would pass ``check`` and fail mid-run, after energising:
+    refuse it at import instead (and an executor without a model is dead code)."""
+    models = step_kinds()
+    if set(registry) != models:
+        missing, extra = sorted(models - set(registry)), sorted(set(registry) - models)
+        raise RuntimeError(f"step kinds without an executor: {missing or 'none'}; "
+                           f"executors without a step model: {extra or 'none'}")
+
+
 from harness.runner.steps import (  # noqa: E402,F401  - importing registers the kinds
     hold, measure, off, prompt, ramp, repeat, resistance, sweep, temperature,
 )
+
+check_registry(REGISTRY)

@@ -9,14 +9,15 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from harness.calc import circuit, performance, uncertainty
+from harness.calc import circuit, compliance, performance, temperature, uncertainty
 from harness.calc.basis import Basis, basis_of
 from harness.calc.corrections import corrected_record
 from harness.calc.load import LoadResult, evaluate_load
 from harness.calc.no_load import NoLoadResult, evaluate_no_load, shunt, waveform_settings
 from harness.calc.record import Record
 from harness.calc.results import Branches, EfficiencyRow, MaxEfficiency, RegulationRow, Results
-from harness.calc.tolerances import flag_uncertain, guarantee_checks
+from harness.calc.standards import IEEE_NO_LOAD_KT_PER_C
+from harness.calc.tolerances import flag_uncertain, guarantee_checks, tolerance_source, untoleranced
 
 DEFAULT_LOADS = (0.25, 0.5, 0.75, 1.0, 1.25)
 DEFAULT_POWER_FACTORS = (1.0, 0.8)
@@ -49,8 +50,9 @@ def evaluate(record: Record, loads: Sequence[float] | None = None,
     pk = ld.performance_loss_W if ld is not None else None
     z = ld.performance_impedance_pct if ld is not None else None
     i0 = nl.current_pct if nl is not None else None
-    checks = flag_uncertain(guarantee_checks(p0, pk, z, i0, record.guarantees, record.tolerances),
+    checks = flag_uncertain(guarantee_checks(p0, pk, z, i0, record.guarantees, record.tolerances, record.standard),
                             {q: b.expanded for q, b in budgets.items()})
+    rules, rule_warnings = compliance_checks(record, basis, nl, ld)
     return Results(
         rated_current_A={w: basis.rated_current(w) for w in ("hv", "lv")},
         no_load=nl, load=ld, equivalent_circuit=equivalent_circuit(record, nl, ld, basis),
@@ -58,9 +60,12 @@ def evaluate(record: Record, loads: Sequence[float] | None = None,
         max_efficiency=max_efficiency(record, basis, p0, pk),
         regulation=regulation_table(reg_loads, pfs, ld),
         checks=tuple(checks),
-        warnings=tuple(warnings + u_warnings + skipped_guarantee_warnings(record) + uncertain_check_warnings(checks)),
+        warnings=tuple(warnings + u_warnings + skipped_guarantee_warnings(record) + untoleranced_warnings(record)
+                       + uncertain_check_warnings(checks) + rule_warnings),
         corrections=corrections,
         uncertainty=budgets,
+        tolerance_source=tolerance_source(record.standard),
+        compliance=tuple(rules),
     )
 
 
@@ -165,3 +170,42 @@ def uncertain_check_warnings(checks) -> list[str]:
             f"expanded uncertainty (+/- {c.expanded_uncertainty:.3g} {c.unit}, k = 2) of the limit, so the verdict "
             f"{'PASS' if c.passed else 'FAIL'} could flip."
             for c in checks if c.uncertain]
+
+
+def untoleranced_warnings(record: Record) -> list[str]:
+    return [f"The guaranteed {name.replace('_', ' ')} is not checked: {tolerance_source(record.standard)} sets no "
+            "tolerance for it; give one in the record's tolerances." for name in
+            untoleranced(record.guarantees, record.tolerances, record.standard)]
+
+
+def compliance_checks(record: Record, basis: Basis, nl: NoLoadResult | None,
+                      ld: LoadResult | None) -> tuple[list[compliance.ComplianceCheck], list[str]]:
+    """The efficiency regulations the record asks for, from the corrected test results."""
+    checks: list[compliance.ComplianceCheck] = []
+    warnings: list[str] = []
+    for rule in record.compliance or ():
+        if rule == compliance.EU_ECODESIGN_TIER2:
+            found = compliance.eu_ecodesign_tier2()
+        elif nl is None or ld is None:
+            found = [], [f"{rule}: not evaluated: the record lacks the no-load or the load-loss test."]
+        else:
+            found = compliance.us_doe_2016(doe_inputs(record, basis, nl, ld))
+        checks += found[0]
+        warnings += found[1]
+    return checks, warnings
+
+
+def doe_inputs(record: Record, basis: Basis, nl: NoLoadResult, ld: LoadResult) -> compliance.DoeInputs:
+    """No-load loss at 20 degC and load loss at each reference temperature the procedure uses."""
+    p0_20 = None
+    if nl.temperature_C is not None:
+        p0_20 = nl.loss_waveform_corrected_W * temperature.ieee_no_load_factor(
+            nl.temperature_C, compliance.DOE_NO_LOAD_REFERENCE_C, IEEE_NO_LOAD_KT_PER_C)
+    at: dict[float, float] = {}
+    if ld.i2r_loss_W is not None and ld.additional_loss_W is not None and ld.test_temperature_C is not None:
+        split = temperature.LossSplit(ld.i2r_loss_W, ld.additional_loss_W)
+        at = {t: temperature.correct_split(split, ld.test_temperature_C, t, basis.material_constant).total_W
+              for t in set(compliance.DOE_LOAD_REFERENCE_C.values())}
+    t = record.transformer
+    return compliance.DoeInputs(basis.rated_power_VA, basis.phases, t.frequency, t.insulation, t.voltage_class,
+                                p0_20, nl.loss_waveform_corrected_W, at, ld.loss_W)

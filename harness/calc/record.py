@@ -24,6 +24,7 @@ from harness.common.units import (ApparentPower, Current, Duration, Frequency, P
 RECORD_SPEC = 1
 
 WindingName = Literal["hv", "lv"]
+ComplianceRule = Literal["us-doe-2016", "eu-ecodesign-tier2"]
 
 
 def _positive(value: PhaseValue) -> PhaseValue:
@@ -67,6 +68,10 @@ class Transformer(_Model):
         None, description="sets the resistance temperature constant; copper assumed (with a warning) if absent")
     reference_temperature: TestTemperature | None = Field(
         None, description="temperature the load loss is corrected to; default from the standard")
+    insulation: Literal["liquid-immersed", "dry-type"] | None = Field(
+        None, description="what efficiency regulations class the unit by (compliance checks)")
+    voltage_class: Literal["low-voltage", "medium-voltage"] | None = Field(
+        None, description="dry-type units: the regulations' low- or medium-voltage class (compliance checks)")
 
     @model_validator(mode="after")
     def _consistent(self) -> Transformer:
@@ -141,7 +146,8 @@ class Guarantees(_Model):
 
 
 class Tolerances(_Model):
-    """Overrides of the IEC 60076-1 Table 1 tolerances, in % of the guaranteed value."""
+    """Overrides of the standard's tolerances (IEC 60076-1 Table 1 or IEEE C57.12.00 clause 9), in % of the
+    guaranteed value."""
     no_load_loss: PositivePercent | None = None
     load_loss: PositivePercent | None = None
     total_loss: PositivePercent | None = None
@@ -183,6 +189,8 @@ class Record(_Model):
     tolerances: Tolerances | None = None
     load_profile: list[LoadBlock] | None = Field(None, min_length=1, description="24 hours of load")
     waveform: Waveform | None = None
+    compliance: list[ComplianceRule] | None = Field(
+        None, min_length=1, description="efficiency regulations to check the unit against")
     measurement_chain: MeasurementChain | None = Field(
         None, description="instrument transformers, analyser, resistance meter and thermometer: corrections and "
                           "uncertainty")

@@ -7,13 +7,14 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
+from harness.calc.compliance import ComplianceCheck
 from harness.calc.load import LoadResult
 from harness.calc.no_load import NoLoadResult
 from harness.calc.tolerances import Check
 from harness.calc.uncertainty import Budget
 
 CONTRACT_KEYS = ("rated_current_A", "no_load", "load", "equivalent_circuit", "efficiency", "max_efficiency",
-                 "regulation", "checks", "warnings", "corrections", "uncertainty")
+                 "regulation", "checks", "warnings", "corrections", "uncertainty", "tolerance_source", "compliance")
 
 
 @dataclass(frozen=True)
@@ -69,6 +70,10 @@ class Results:
     """What the measurement-chain corrections did, per test (None without a chain)."""
     uncertainty: dict[str, Budget] = dataclasses.field(default_factory=dict)
     """Per quantity key (no_load_loss_W, load_loss_ref_W, ...), empty without a chain."""
+    tolerance_source: str = "IEC 60076-1 Table 1"
+    """Where the default tolerances of the guarantee checks come from (the record's standard)."""
+    compliance: tuple[ComplianceCheck, ...] = ()
+    """Checks against the efficiency regulations the record asks for."""
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready data with exactly the contract keys (non-finite numbers become None)."""
@@ -84,6 +89,8 @@ class Results:
             "warnings": list(self.warnings),
             "corrections": self.corrections,
             "uncertainty": {q: b.to_dict() for q, b in self.uncertainty.items()},
+            "tolerance_source": self.tolerance_source,
+            "compliance": [c.to_dict() for c in self.compliance],
         }
         return _finite(data)
 

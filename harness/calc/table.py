@@ -85,8 +85,17 @@ def _regulation(data: dict[str, Any]) -> Table:
 
 def _checks(data: dict[str, Any]) -> Table:
     rows = [(c["quantity"].replace("_", " "), c["value"], c["guaranteed"], _limit(c["limit"]), c["unit"],
-             _verdict(c)) for c in data["checks"]]
-    return _table("Checks against guarantees", ("quantity", "value", "guaranteed", "limit", "unit", "verdict"), rows)
+             _verdict(c), c.get("source") or "-") for c in data["checks"]]
+    source = data.get("tolerance_source")
+    title = f"Checks against guarantees ({source} tolerances)" if source else "Checks against guarantees"
+    return _table(title, ("quantity", "value", "guaranteed", "limit", "unit", "verdict", "source"), rows)
+
+
+def _compliance(data: dict[str, Any]) -> Table:
+    rows = [(c["rule"], c["quantity"], c["value"], f">= {fmt(c['limit'])}", c["margin"], c["unit"],
+             "PASS" if c["passed"] else "FAIL", c["source"]) for c in data["compliance"]]
+    return _table("Efficiency regulations", ("rule", "quantity", "value", "limit", "margin", "unit", "verdict",
+                                             "source"), rows)
 
 
 def _verdict(check: dict[str, Any]) -> str:
@@ -140,6 +149,8 @@ def render_results_dict(data: dict[str, Any], console: Console) -> None:
     tables += [t for t, present in ((_efficiency(data), data["efficiency"]),
                                     (_regulation(data), data["regulation"]), (_checks(data), data["checks"]))
                if present]
+    if data.get("compliance"):
+        tables.append(_compliance(data))
     if data.get("corrections"):
         tables.append(_corrections(data))
     if data.get("uncertainty"):

@@ -6,7 +6,7 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
-from harness.calc.record import Guarantees, Tolerances, Transformer
+from harness.calc.record import ComplianceRule, Guarantees, Tolerances, Transformer, Waveform
 from harness.config.station import Limits
 from harness.config.steps import AnyStep
 
@@ -33,5 +33,8 @@ class Sequence(BaseModel):
     transformer: Transformer
     guarantees: Guarantees | None = None
     tolerances: Tolerances | None = None
+    waveform: Waveform | None = Field(None, description="waveform correction of the no-load loss: form, P1/P2")
+    compliance: list[ComplianceRule] | None = Field(
+        None, min_length=1, description="efficiency regulations to check the unit against")
     limits: Limits = Field(description="test limits: each must sit inside the station's")
     steps: list[AnyStep] = Field(min_length=1)

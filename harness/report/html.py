@@ -58,6 +58,7 @@ def context(bundle: ReportBundle) -> dict[str, Any]:
         "banner": banner(bundle), "cautions": bundle.cautions, "css": Markup(stylesheet()),
         "title": _title(bundle), "unit_name": _text(bundle.unit.get("description")), "serial": _text(bundle.unit.get("serial")), "nameplate": nameplate_rows(bundle.unit), "instruments": instrument_rows(bundle.instruments),
         "standard": _standard(bundle.run, results), "main_rows": tables.main_rows(results),
+        "tolerance_source": results.get("tolerance_source"), "compliance": tables.compliance_rows(results),
         "no_load": tables.detail_rows(results.get("no_load")), "load": tables.detail_rows(results.get("load")),
         "rated_current": tables.detail_rows(_rated_currents(results)),
         "circuit": tables.circuit_rows(results.get("equivalent_circuit") or {}),

@@ -35,6 +35,8 @@ class MainRow:
     checked: int | None = None
     """Which value column (0 measured, 1 corrected, 2 at reference) was compared with the guarantee."""
     note: str = ""
+    source: str = ""
+    """Where the tolerance comes from (a clause, or "record")."""
 
 
 @dataclass(frozen=True)
@@ -144,7 +146,7 @@ def _main_row(spec: _RowSpec, results: Mapping[str, Any], checks: dict[str, dict
         spec.label, spec.unit, *cells,
         fmt.num(check.get("guaranteed")), fmt.limit_text(check.get("limit"), ""),
         fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")),
-        checked if check else None, str(check.get("note") or ""),
+        checked if check else None, str(check.get("note") or ""), str(check.get("source") or ""),
     )
 
 
@@ -154,6 +156,7 @@ def _extra_row(name: str, check: Mapping[str, Any]) -> MainRow:
         label_of(name), str(check.get("unit") or unit_of(name)), fmt.DASH, fmt.num(check.get("value")), fmt.DASH,
         fmt.num(check.get("guaranteed")), fmt.limit_text(check.get("limit"), ""),
         fmt.verdict(check.get("passed")), fmt.verdict_class(check.get("passed")), 1, str(check.get("note") or ""),
+        str(check.get("source") or ""),
     )
 
 
@@ -161,6 +164,21 @@ def main_rows(results: Mapping[str, Any]) -> list[MainRow]:
     checks = _checks_by_name(results)
     rows = [row for spec in _ROWS if (row := _main_row(spec, results, checks)) is not None]
     return rows + [_extra_row(name, check) for name, check in checks.items()]
+
+
+def compliance_rows(results: Mapping[str, Any]) -> list[dict[str, str]]:
+    """The efficiency-regulation checks: rule, quantity, value, limit, margin, verdict, source."""
+    rows = []
+    for c in results.get("compliance", []) or []:
+        if not isinstance(c, Mapping):
+            continue
+        unit = str(c.get("unit") or "")
+        rows.append({"rule": str(c.get("rule") or ""), "quantity": str(c.get("quantity") or ""),
+                     "value": fmt.with_unit(c.get("value"), unit), "limit": fmt.limit_text(c.get("limit"), unit),
+                     "margin": fmt.with_unit(c.get("margin"), unit), "verdict": fmt.verdict(c.get("passed")),
+                     "verdict_class": fmt.verdict_class(c.get("passed")), "source": str(c.get("source") or ""),
+                     "note": str(c.get("note") or "")})
+    return rows
 
 
 def detail_rows(section: Mapping[str, Any] | None) -> list[tuple[str, str, str]]:

@@ -48,7 +48,8 @@ def _run():
     transformer = Transformer.model_validate({"rated_power": "50 kVA", "phases": 1, "frequency": "50 Hz",
                                               "hv": {"rated_voltage": "6600 V"}, "lv": {"rated_voltage": "415 V"},
                                               "winding_material": "copper"})
-    sequence = SimpleNamespace(standard="iec", transformer=transformer, guarantees=None, tolerances=None)
+    sequence = SimpleNamespace(standard="iec", transformer=transformer, guarantees=None, tolerances=None,
+                               waveform=None, compliance=None)
     no_load = _reading("no-load", "lv", {"u_rms": 416.9, "u_mean": 415.0, "i_rms": 1.87, "p": 149.7},
                        {"u_rms": 0.09, "u_mean": 0.09, "i_rms": 0.0007, "p": 0.08})
     load = _reading("load-loss", "hv", {"u_rms": 262.3, "u_mean": 261.0, "i_rms": 7.21, "p": 687.0},

@@ -20,6 +20,7 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
             max_readings: int, target_pct: float | None = None) -> MeasuredReading:
     window: list[Sample] = []
     temps: list[float] = []
+    core: list[float] = []
     mean: dict[str, float] = {}
     std: dict[str, float] = {}
     spread = float("inf")
@@ -33,6 +34,10 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
             t = run.winding_temperature()
             if t is not None:
                 temps.append(t)
+        elif test == "no-load":
+            t = run.read_temperature("oil")
+            if t is not None:
+                core.append(t)
         window = window[-readings:]
         if len(window) == readings:
             mean, std, spread = _stats(window)
@@ -47,6 +52,10 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
     run.store.add_reading(run.run_id, run.step_index, label, window[0].id, window[-1].id,
                           {**stored, "count": result.count, "stable": stable})
     run.readings.append(result)
+    if core:
+        value = float(np.mean(core[-readings:]))
+        run.event("core-temperature", f"{label}: oil {value:.1f} degC during the reading (taken as the core temperature)",
+                  {"step": run.step_index, "temperature_C": value, "channel": "oil"})
     return result
 
 

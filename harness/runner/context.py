@@ -52,6 +52,9 @@ class MeasuredReading:
     winding_temperature: float | None
     target_pct: float | None = None
     ranges: tuple[float, float] | None = None
+    core_temperature: float | None = None
+    """No-load readings: the oil temperature during the reading (else the last one read before),
+    taken as the core temperature (IEEE corrects the no-load loss to 20 degC with it)."""
     """The analyser ranges requested for the reading (V, A at its inputs); it uses the smallest that holds them."""
 
 
@@ -73,6 +76,7 @@ class Run:
     step_title: str = ""
     last_sample: Sample | None = None
     resistances: dict[str, tuple[float, float]] = field(default_factory=dict)
+    oil_temperature: float | None = None  # the last read by a temperature step
     readings: list[MeasuredReading] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
     gains: dict[str, float] = field(default_factory=dict)

@@ -8,21 +8,20 @@ from pydantic import ValidationError
 
 from harness.calc import Record, evaluate
 from harness.runner.context import Run
-from harness.runner.record import build_record, core_temperature, load_series
+from harness.runner.record import build_record, load_series
 
 
 def evaluate_run(run: Run) -> tuple[dict[str, Any] | None, dict[str, Any] | None]:
     """The record and its results; (record, None) with a warning when the readings cannot be evaluated."""
     if not any(r.test in ("no-load", "load-loss") for r in run.readings):
         return None, None
-    t_core = core_temperature(run.store.events(run.run_id))
-    record = build_record(run, no_load_temperature=t_core)
+    record = build_record(run)
     try:
         results = evaluate(Record.model_validate(record)).to_dict()
     except (ValidationError, ValueError) as exc:
         run.warn(f"the readings could not be evaluated: {_first_error(exc)}")
         return record, None
-    series = _load_series(run, t_core)
+    series = _load_series(run)
     if len(series) > 1:
         results["load_series"] = series
     results["warnings"] = list(results.get("warnings", [])) + run.warnings
@@ -30,12 +29,12 @@ def evaluate_run(run: Run) -> tuple[dict[str, Any] | None, dict[str, Any] | None
     return record, results
 
 
-def _load_series(run: Run, t_core: float | None) -> list[dict[str, Any]]:
+def _load_series(run: Run) -> list[dict[str, Any]]:
     """Each load-loss reading evaluated on its own: raw loss drifts as the winding warms."""
     rows = []
     for n, reading in enumerate(load_series(run), start=1):
         try:
-            load = evaluate(Record.model_validate(build_record(run, reading, t_core))).to_dict()["load"]
+            load = evaluate(Record.model_validate(build_record(run, reading))).to_dict()["load"]
         except (ValidationError, ValueError):
             continue
         rows.append({"reading": n, "winding_temperature_C": reading.winding_temperature,

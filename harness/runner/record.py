@@ -23,31 +23,12 @@ def samples_of(r: MeasuredReading, mean_value: bool) -> dict[str, Any]:
     return extra
 
 
-def no_load_section(r: MeasuredReading, core_temperature: float | None = None) -> dict[str, Any]:
+def no_load_section(r: MeasuredReading) -> dict[str, Any]:
     section = {"winding": r.winding, "voltage": r.mean["u_rms"], "voltage_mean": r.mean["u_mean"],
                "current": r.mean["i_rms"], "power": r.mean["p"], **samples_of(r, True)}
-    if core_temperature is not None:
-        section["temperature"] = core_temperature
+    if r.core_temperature is not None:
+        section["temperature"] = r.core_temperature
     return section
-
-
-def core_temperature(events: list[dict[str, Any]]) -> float | None:
-    """The core temperature of the last no-load reading, from the run's events in their order.
-
-    The oil read during the reading (a ``core-temperature`` event of the measure step) is taken as
-    the core temperature; without it, the oil channel of the last thermometer step before the
-    reading. None when neither was read (no oil channel).
-    """
-    oil = during = found = None
-    for e in events:
-        data = e.get("data") or {}
-        if e["kind"] == "temperature" and isinstance(data.get("oil"), (int, float)):
-            oil = float(data["oil"])
-        elif e["kind"] == "core-temperature":
-            during = float(data["temperature_C"])
-        elif e["kind"] == "reading" and data.get("test") == "no-load":
-            found, during = (during if during is not None else oil), None
-    return found
 
 
 def load_section(r: MeasuredReading) -> dict[str, Any]:
@@ -58,20 +39,17 @@ def load_section(r: MeasuredReading) -> dict[str, Any]:
     return section
 
 
-def build_record(run: Run, load: MeasuredReading | None = None,
-                 no_load_temperature: float | None = None) -> dict[str, Any]:
-    """The record as plain data (SI numbers); the calculation core validates it.
-
-    ``no_load_temperature`` is the core temperature of the no-load test (see ``core_temperature``):
-    the IEEE evaluation and the efficiency regulations correct the no-load loss to 20 degC with it.
-    """
+def build_record(run: Run, load: MeasuredReading | None = None) -> dict[str, Any]:
+    """The record as plain data (SI numbers); the calculation core validates it. The no-load
+    section carries the core temperature: IEEE and the efficiency rules correct the no-load
+    loss to 20 degC with it."""
     seq = run.sequence
     record: dict[str, Any] = {"standard": seq.standard,
                               "transformer": seq.transformer.model_dump(mode="json", exclude_none=True)}
     no_load = _last(run, "no-load")
     load = load or _last(run, "load-loss")
     if no_load:
-        record["no_load"] = no_load_section(no_load, no_load_temperature)
+        record["no_load"] = no_load_section(no_load)
     if load:
         record["load"] = load_section(load)
     if run.resistances:

@@ -114,7 +114,7 @@ def _run_on_bay(run_id: str, prepared: Prepared, station: Station, clock: Clock,
                             "isolate and earth it by hand before anyone approaches.", safe.as_dict())
     status, trip = _late_faults(run, status, trip)
     record, results, status, trip = _evaluate(run, status, trip)
-    if status == "passed" and results and not all(c["passed"] for c in results.get("checks", [])):
+    if status == "passed" and results and not all(c["passed"] for c in results.get("checks", []) + results.get("compliance", [])):
         status = "failed"
     return _finish(recorder, run_id, status, trip, record, results, safe.as_dict(), run.warnings, signals)
 

@@ -53,9 +53,11 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
                           {**stored, "count": result.count, "stable": stable})
     run.readings.append(result)
     if core:
-        value = float(np.mean(core[-readings:]))
-        run.event("core-temperature", f"{label}: oil {value:.1f} degC during the reading (taken as the core temperature)",
-                  {"step": run.step_index, "temperature_C": value, "channel": "oil"})
+        result.core_temperature = float(np.mean(core[-readings:]))
+        run.event("core-temperature", f"{label}: oil {result.core_temperature:.1f} degC during the reading "
+                  "(taken as the core temperature)", {"step": run.step_index, "temperature_C": result.core_temperature})
+    elif test == "no-load":
+        result.core_temperature = run.oil_temperature
     return result
 
 

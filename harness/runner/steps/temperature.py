@@ -13,4 +13,6 @@ def execute(step, run: Run) -> None:
     if run.bay.thermometer is None or spec is None:
         raise ReadingFault("the station has no thermometer", step=run.step_title)
     values = {name: run.read_temperature(name) for name in spec.channels}
+    if values.get("oil") is not None:
+        run.oil_temperature = values["oil"]
     run.event("temperature", ", ".join(f"{k} {v:.1f} degC" for k, v in values.items()), values)

@@ -14,6 +14,7 @@ from typing import Any, Callable
 
 from harness.common.clock import Clock
 from harness.common.errors import HarnessError
+from harness.common.reading import Phase, Sample, phase_name
 from harness.config.checks import EffectiveLimits
 from harness.config.station import ReadingChecks, SafeState
 
@@ -24,9 +25,10 @@ class Trip(HarnessError):
     """A reason to stop now and make the bay safe; carries what the report's banner shows."""
 
     def __init__(self, cause: str, quantity: str | None = None, value: float | None = None,
-                 limit: float | None = None, step: str | None = None, time: float | None = None):
+                 limit: float | None = None, step: str | None = None, time: float | None = None,
+                 phase: str | None = None):
         self.cause, self.quantity, self.value, self.limit = cause, quantity, value, limit
-        self.step, self.time = step, time
+        self.step, self.time, self.phase = step, time, phase
         self.wall = dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds")
         super().__init__(self.sentence())
 
@@ -38,7 +40,7 @@ class Trip(HarnessError):
 
     def as_dict(self) -> dict[str, Any]:
         return {"cause": self.cause, "quantity": self.quantity, "value": self.value, "limit": self.limit,
-                "step": self.step, "t_s": self.time, "time": self.wall, "text": self.sentence()}
+                "step": self.step, "t_s": self.time, "time": self.wall, "phase": self.phase, "text": self.sentence()}
 
 
 class LimitTrip(Trip):
@@ -57,43 +59,55 @@ class Supervisor:
     clock: Clock
     step: str = ""
     energised_since: float | None = None
-    _last_values: tuple[float, ...] | None = None
+    setpoint_factor: float = 1.0
+    _last_values: tuple[Phase, ...] | None = None
     _last_change: float = 0.0
 
-    def trip(self, quantity: str, value: float, limit: float) -> LimitTrip:
-        return LimitTrip(f"{quantity.replace('_', ' ')} limit", quantity, value, limit, self.step, self.clock.now())
+    def trip(self, quantity: str, value: float, limit: float, phase: str = "") -> LimitTrip:
+        on = f" on phase {phase}" if phase else ""
+        return LimitTrip(f"{quantity.replace('_', ' ')} limit{on}", quantity, value, limit, self.step,
+                         self.clock.now(), phase or None)
 
     def check_setpoint(self, volts: float) -> None:
+        """``volts`` in the source's own terms; ``setpoint_factor`` turns them into the line
+        voltage the limits are given in (sqrt 3 for a three-phase source set line-to-neutral)."""
+        line = volts * self.setpoint_factor
         if not math.isfinite(volts) or volts < 0:
             raise LimitTrip("invalid setpoint", "voltage", volts, self.limits.voltage, self.step, self.clock.now())
-        if volts > self.limits.voltage:
-            raise LimitTrip("voltage limit: setpoint refused before it was sent", "voltage", volts,
+        if line > self.limits.voltage:
+            raise LimitTrip("voltage limit: setpoint refused before it was sent", "voltage", line,
                             self.limits.voltage, self.step, self.clock.now())
 
-    def check_reading(self, u_rms: float, u_mean: float, i_rms: float, p: float, t: float, age: float) -> None:
-        """``t`` is the bay time of the reading, ``age`` how long the query took (bay s)."""
-        values = (u_rms, u_mean, i_rms, p)
-        if not all(math.isfinite(v) for v in values):
-            raise ReadingFault("reading is not a number", step=self.step, time=t)
+    def check_reading(self, sample: Sample, age: float) -> None:
+        """Every phase against the limits (a current limit is a limit on each line current), the
+        total power, the energised time; ``age`` is how long the query took (bay s)."""
+        t, n = sample.t, len(sample.phases)
+        for k, ph in enumerate(sample.phases):
+            if not (math.isfinite(ph.u_rms) and math.isfinite(ph.u_mean) and math.isfinite(ph.i_rms)
+                    and math.isfinite(ph.p)):
+                name = phase_name(k, n)
+                raise ReadingFault("reading is not a number" + (f" on phase {name}" if name else ""),
+                                   step=self.step, time=t, phase=name or None)
         if age > self.checks.late_after:
             raise ReadingFault("reading late", "time", age, self.checks.late_after, self.step, t)
-        self._check_bounds(max(u_rms, u_mean), abs(i_rms), abs(p))
+        for k, ph in enumerate(sample.phases):
+            self._check_bounds(max(ph.u_rms, ph.u_mean), abs(ph.i_rms), phase_name(k, n))
+        if abs(sample.p) > self.limits.power:
+            raise self.trip("power", abs(sample.p), self.limits.power)
         self._check_time(t)
-        self._check_stale(values, t)
+        self._check_stale(sample.phases, t)
 
-    def _check_bounds(self, u: float, i: float, p: float) -> None:
+    def _check_bounds(self, u: float, i: float, phase: str) -> None:
         if u > self.limits.voltage:
-            raise self.trip("voltage", u, self.limits.voltage)
+            raise self.trip("voltage", u, self.limits.voltage, phase)
         if i > self.limits.current:
-            raise self.trip("current", i, self.limits.current)
-        if p > self.limits.power:
-            raise self.trip("power", p, self.limits.power)
+            raise self.trip("current", i, self.limits.current, phase)
 
     def _check_time(self, t: float) -> None:
         if self.energised_since is not None and t - self.energised_since > self.limits.energised_time:
             raise self.trip("energised_time", t - self.energised_since, self.limits.energised_time)
 
-    def _check_stale(self, values: tuple[float, ...], t: float) -> None:
+    def _check_stale(self, values: tuple[Phase, ...], t: float) -> None:
         if values != self._last_values:
             self._last_values, self._last_change = values, t
         elif self.energised_since is not None and t - self._last_change > self.checks.stale_after:

@@ -9,6 +9,7 @@ from __future__ import annotations
 from typing import Any
 
 from harness.calc.phases import apparent_power, mean, rated_current
+from harness.calc.vector_group import mismatches, parse_vector_group
 
 Problem = tuple[tuple[Any, ...], str, Any]
 
@@ -28,12 +29,27 @@ def transformer_problems(t: Any) -> list[Problem]:
 def _connection_problems(t: Any) -> list[Problem]:
     problems: list[Problem] = []
     for name in ("hv", "lv"):
-        connection = getattr(t, name).connection
-        if t.phases == 3 and connection is None:
-            problems.append(((name, "connection"), "a three-phase winding needs its connection: star or delta", None))
-        elif t.phases == 1 and connection is not None:
-            problems.append(((name, "connection"), "connection applies to three-phase units only", connection))
-    return problems
+        winding = getattr(t, name)
+        if t.phases == 3 and winding.connection is None:
+            problems.append(((name, "connection"), "a three-phase winding needs its connection: star, delta or zigzag", None))
+        elif t.phases == 1 and winding.connection is not None:
+            problems.append(((name, "connection"), "connection applies to three-phase units only", winding.connection))
+        if winding.neutral and winding.connection not in ("star", "zigzag"):
+            problems.append(((name, "neutral"), "only a star or zigzag winding has a neutral to bring out", True))
+    return problems + _vector_group_problems(t)
+
+
+def _vector_group_problems(t: Any) -> list[Problem]:
+    if t.vector_group is None:
+        return []
+    if t.phases != 3:
+        return [(("vector_group",), "a vector group applies to three-phase units only", t.vector_group)]
+    try:
+        group = parse_vector_group(t.vector_group)
+    except ValueError as exc:
+        return [(("vector_group",), str(exc), t.vector_group)]
+    return [(("vector_group",), f"{t.vector_group}: {reason}", t.vector_group)
+            for _, reason in mismatches(group, t.hv.connection, t.lv.connection, t.hv.neutral, t.lv.neutral)]
 
 
 def _ratio_problems(t: Any) -> list[Problem]:

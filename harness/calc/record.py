@@ -55,7 +55,8 @@ class _Model(BaseModel):
 
 class Winding(_Model):
     rated_voltage: PositiveVoltage = Field(description="rated voltage; three-phase: line-to-line")
-    connection: Literal["star", "delta"] | None = Field(None, description="three-phase only")
+    connection: Literal["star", "delta", "zigzag"] | None = Field(None, description="three-phase only")
+    neutral: bool = Field(False, description="three-phase star or zigzag: the neutral is brought out")
 
 
 class Transformer(_Model):
@@ -68,6 +69,8 @@ class Transformer(_Model):
         None, description="sets the resistance temperature constant; copper assumed (with a warning) if absent")
     reference_temperature: TestTemperature | None = Field(
         None, description="temperature the load loss is corrected to; default from the standard")
+    vector_group: str | None = Field(
+        None, description="three-phase: e.g. Dyn11, YNd1, Yzn5; checked against the connections")
     insulation: Literal["liquid-immersed", "dry-type"] | None = Field(
         None, description="what efficiency regulations class the unit by (compliance checks)")
     voltage_class: Literal["low-voltage", "medium-voltage"] | None = Field(

@@ -6,6 +6,7 @@
   overshoot, for the learned ramp and for a fixed-increment baseline.
 """
 
+from harness.common.reading import Phase, combine
 from __future__ import annotations
 
 import contextlib
@@ -45,7 +46,8 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
 
         def harness_reading() -> None:
             ch = analyser.snapshot().channels[0]
-            supervisor.check_reading(ch.u_rms, ch.u_mean, ch.i_rms, ch.p, clock.now(), 0.0)
+            phases = (Phase(ch.u_rms, ch.u_mean, ch.i_rms, ch.p),)
+            supervisor.check_reading(combine(0, clock.now(), phases, ch.freq, 0.0), 0.0)
 
         def raw_reading() -> None:
             raw.query(query)

@@ -12,6 +12,7 @@ from typing import Any, Callable
 
 from drivers.errors import InstrumentReportedError
 from harness.common.clock import Clock
+from harness.common.reading import Phase, Sample, combine
 from harness.config.checks import EffectiveLimits, rated_current, rated_voltage, resolve_target
 from harness.config.sequence import Sequence
 from harness.config.station import Station
@@ -23,19 +24,6 @@ from harness.safety import ReadingFault, SafeOutcome, Supervisor, make_safe
 # this many real seconds as well as past the station's bay-time threshold.
 LATE_FLOOR_REAL_S = 0.25
 RANGE_HEADROOM = 1.3  # range chosen for 130 % of the reading: room for drift below the overload point
-
-
-@dataclass(frozen=True, slots=True)
-class Sample:
-    """One checked reading in primary quantities (wiring ratios applied)."""
-    id: int
-    t: float
-    u_rms: float
-    u_mean: float
-    i_rms: float
-    p: float
-    freq: float
-    setpoint: float
 
 
 @dataclass
@@ -142,8 +130,9 @@ class Run:
     def fit_ranges(self, sample: Sample) -> None:
         """Before a measure, the smallest ranges with headroom: % of range errors stay small."""
         m = self.station.measurement
-        self._set_ranges(RANGE_HEADROOM * max(sample.u_rms, sample.u_mean) / m.vt_ratio,
-                         RANGE_HEADROOM * sample.i_rms / m.ct_ratio)
+        u = max(max(ph.u_rms, ph.u_mean) for ph in sample.phases)  # the highest phase must fit
+        self._set_ranges(RANGE_HEADROOM * u / m.vt_ratio,
+                         RANGE_HEADROOM * max(ph.i_rms for ph in sample.phases) / m.ct_ratio)
 
     def use_averaging(self, seconds: float) -> None:
         """The analyser's update interval: short while ramping (the controller sees the source
@@ -173,14 +162,18 @@ class Run:
         t0 = self.clock.now()
         snap = self.bay.analyser.snapshot()
         t1 = self.clock.now()
-        ch = snap.channels[0]
         m = self.station.measurement
-        u, um, i = ch.u_rms * m.vt_ratio, ch.u_mean * m.vt_ratio, ch.i_rms * m.ct_ratio
-        p = ch.p * m.vt_ratio * m.ct_ratio
+        vt, ct = m.vt_ratio, m.ct_ratio
+        phases = tuple(Phase(ch.u_rms * vt, ch.u_mean * vt, ch.i_rms * ct, ch.p * vt * ct) for ch in snap.channels)
+        freq = snap.channels[0].freq
         age = t1 - t0 if self.clock.real(t1 - t0) > LATE_FLOOR_REAL_S else 0.0
-        sid = self.store.add_sample(self.run_id, self.step_index, t1, 1, u, um, i, p, ch.freq, self.setpoint, tag)
-        self.supervisor.check_reading(u, um, i, p, t1, age)
-        sample = Sample(sid, t1, u, um, i, p, ch.freq, self.setpoint)
+        first = -1
+        for channel, ph in enumerate(phases, start=1):  # every channel kept, the one that trips too
+            sid = self.store.add_sample(self.run_id, self.step_index, t1, channel, ph.u_rms, ph.u_mean, ph.i_rms,
+                                        ph.p, freq, self.setpoint, tag)
+            first = sid if first < 0 else first
+        sample = combine(first, t1, phases, freq, self.setpoint)
+        self.supervisor.check_reading(sample, age)
         self.last_sample = sample
         self._watch_temperature(t1)
         self._watch_source(t1)
@@ -250,9 +243,10 @@ class Run:
     def _probes(self) -> list[tuple[str, Callable[[], tuple[float, float]]]]:
         m = self.station.measurement
 
-        def analyser() -> tuple[float, float]:
-            ch = self.bay.analyser.snapshot().channels[0]
-            return max(ch.u_rms, ch.u_mean) * m.vt_ratio, ch.i_rms * m.ct_ratio
+        def analyser() -> tuple[float, float]:  # the highest phase: every one must be dead
+            channels = self.bay.analyser.snapshot().channels
+            return (max(max(ch.u_rms, ch.u_mean) for ch in channels) * m.vt_ratio,
+                    max(ch.i_rms for ch in channels) * m.ct_ratio)
 
         def source() -> tuple[float, float]:
             u = self.bay.source.measured_voltage()

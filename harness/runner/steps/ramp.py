@@ -79,17 +79,17 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
         s = run.read()
         y = measured(s, quantity)
         peak = max(peak, y)
-        if not applied or s.u_rms != applied[-1][1]:
-            applied.append((s.t, s.u_rms))  # a repeated value is the same analyser update, not a settled source
+        if not applied or s.u_source != applied[-1][1]:
+            applied.append((s.t, s.u_source))  # a repeated value is the same analyser update, not a settled source
         settled = _settled(applied, band / 2, SETTLED_WINDOW_FACTOR * run.measure_averaging)
         if settled and abs(y - target) <= band * target:
-            run.gains[quantity] = y / s.u_rms
+            run.gains[quantity] = y / s.u_source
             return RampResult(y, run.clock.now() - start, peak)
-        if settled and K_RANGE[0] <= s.u_rms / run.setpoint <= K_RANGE[1]:
-            k, aim = s.u_rms / run.setpoint, target
+        if settled and K_RANGE[0] <= s.u_source / run.setpoint <= K_RANGE[1]:
+            k, aim = s.u_source / run.setpoint, target
             run.gains["drop"] = k
-        if y > 0 and s.u_rms > LEARN_FROM * run.setpoint:
-            wanted = aim / (y / s.u_rms) / k
+        if y > 0 and s.u_source > LEARN_FROM * run.setpoint:
+            wanted = aim / (y / s.u_source) / k
             if abs(wanted - run.setpoint) > band / 10 * wanted:  # below that, reading noise
                 if abs(wanted - run.setpoint) > band / 2 * wanted:
                     applied.clear()  # a real move: the source must settle again

@@ -81,5 +81,12 @@ def apparent_power(voltage: float, current: float, phases: int) -> float:
     return (SQRT3 if phases == 3 else 1.0) * voltage * current
 
 
+def phase_resistance(line_to_line: float, connection: str) -> float:
+    """The resistance of one phase winding from the d.c. resistance measured between two line
+    terminals of a balanced winding: star (and zigzag), two phases in series, R_LL = 2 R_ph; delta,
+    one phase in parallel with the other two in series, R_LL = 2/3 R_ph (circuit theory)."""
+    return line_to_line / 2.0 if connection in ("star", "zigzag") else 1.5 * line_to_line
+
+
 def rated_current(rated_power: float, rated_voltage: float, phases: int) -> float:
     return rated_power / apparent_power(rated_voltage, 1.0, phases)

@@ -26,8 +26,9 @@ class Instrument(Frozen):
     profile: str = Field(description="command profile: a name in drivers/profiles or a path")
     timeout: Duration = Field(2.0, description="reply timeout (real seconds)")
     calibration_due: dt.date | None = None
-    channels: dict[str, int] = Field(default_factory=dict,
-                                     description="named channels (thermometer, resistance meter)")
+    channels: dict[str, int | list[int]] = Field(default_factory=dict, description=(
+        "named channels (thermometer, resistance meter); a three-phase unit's resistance meter takes "
+        "three per winding, the line-to-line pairs 1-2, 2-3, 3-1"))
 
 
 class Instruments(Frozen):

@@ -40,10 +40,23 @@ class MeasuredReading:
     winding_temperature: float | None
     target_pct: float | None = None
     ranges: tuple[float, float] | None = None
+    """The analyser ranges requested for the reading (V, A at its inputs); it uses the smallest that holds them."""
     core_temperature: float | None = None
     """No-load readings: the oil temperature during the reading (else the last one read before),
     taken as the core temperature (IEEE corrects the no-load loss to 20 degC with it)."""
-    """The analyser ranges requested for the reading (V, A at its inputs); it uses the smallest that holds them."""
+    phase_mean: tuple[dict[str, float], ...] = ()
+    phase_std: tuple[dict[str, float], ...] = ()
+    """Per phase (channel) of a three-phase reading: the same statistics as ``mean``/``std``."""
+
+    @property
+    def phases(self) -> int:
+        return len(self.phase_mean) or 1
+
+    def per_phase(self, quantity: str, statistic: str = "mean") -> float | list[float]:
+        """One value (single-phase) or the three phases' values, as the record takes them."""
+        table = self.phase_mean if statistic == "mean" else self.phase_std
+        whole = self.mean if statistic == "mean" else self.std
+        return [row[quantity] for row in table] if len(table) == 3 else whole[quantity]
 
 
 @dataclass
@@ -63,7 +76,7 @@ class Run:
     step_index: int = -1
     step_title: str = ""
     last_sample: Sample | None = None
-    resistances: dict[str, tuple[float, float]] = field(default_factory=dict)
+    resistances: dict[str, tuple[float | list[float], float]] = field(default_factory=dict)
     oil_temperature: float | None = None  # the last read by a temperature step
     readings: list[MeasuredReading] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)

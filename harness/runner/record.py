@@ -16,24 +16,25 @@ def samples_of(r: MeasuredReading, mean_value: bool) -> dict[str, Any]:
     """The raw-sample statistics behind the reading (type A), and the analyser ranges it was read on."""
     extra: dict[str, Any] = {}
     if r.count >= 2:
-        extra["samples"] = {"count": r.count, "voltage_sd": r.std["u_rms"], "current_sd": r.std["i_rms"],
-                            "power_sd": r.std["p"], **({"voltage_mean_sd": r.std["u_mean"]} if mean_value else {})}
+        extra["samples"] = {"count": r.count, "voltage_sd": r.per_phase("u_rms", "std"),
+                            "current_sd": r.per_phase("i_rms", "std"), "power_sd": r.std["p"],
+                            **({"voltage_mean_sd": r.per_phase("u_mean", "std")} if mean_value else {})}
     if r.ranges is not None:
         extra["analyser_ranges"] = {"voltage": r.ranges[0], "current": r.ranges[1]}
     return extra
 
 
 def no_load_section(r: MeasuredReading) -> dict[str, Any]:
-    section = {"winding": r.winding, "voltage": r.mean["u_rms"], "voltage_mean": r.mean["u_mean"],
-               "current": r.mean["i_rms"], "power": r.mean["p"], **samples_of(r, True)}
+    section = {"winding": r.winding, "voltage": r.per_phase("u_rms"), "voltage_mean": r.per_phase("u_mean"),
+               "current": r.per_phase("i_rms"), "power": r.mean["p"], **samples_of(r, True)}
     if r.core_temperature is not None:
         section["temperature"] = r.core_temperature
     return section
 
 
 def load_section(r: MeasuredReading) -> dict[str, Any]:
-    section = {"winding": r.winding, "voltage": r.mean["u_rms"], "current": r.mean["i_rms"], "power": r.mean["p"],
-               **samples_of(r, False)}
+    section = {"winding": r.winding, "voltage": r.per_phase("u_rms"), "current": r.per_phase("i_rms"),
+               "power": r.mean["p"], **samples_of(r, False)}
     if r.winding_temperature is not None:
         section["temperature"] = r.winding_temperature
     return section

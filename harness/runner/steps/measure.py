@@ -10,10 +10,10 @@ from __future__ import annotations
 import numpy as np
 
 from harness.calc.reduce import window_stats
-from harness.runner.context import MeasuredReading, Run, Sample
+from harness.common.reading import QUANTITIES, Sample
+from harness.runner.context import MeasuredReading, Run
 from harness.runner.steps import register
 
-QUANTITIES = ("u_rms", "u_mean", "i_rms", "p")
 
 
 def measure(run: Run, test: str, label: str, readings: int, interval: float, stability_pct: float,
@@ -46,11 +46,11 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
     stable = spread <= stability_pct
     if not stable:
         run.warn(f"{label}: readings not stable within {stability_pct:g} % after {max_readings} readings")
+    phase_mean, phase_std = _phase_stats(window)
     result = MeasuredReading(test, label, run.step_index, run.fed, len(window), mean, std, stable,
-                             float(np.mean(temps[-readings:])) if temps else None, target_pct, run.ranges)
-    stored = {f"{q}_{kind}": values[q] for kind, values in (("mean", result.mean), ("std", result.std)) for q in QUANTITIES}
-    run.store.add_reading(run.run_id, run.step_index, label, window[0].id, window[-1].id,
-                          {**stored, "count": result.count, "stable": stable})
+                             float(np.mean(temps[-readings:])) if temps else None, target_pct, run.ranges,
+                             phase_mean=phase_mean, phase_std=phase_std)
+    _store(run, label, window, result)
     run.readings.append(result)
     if core:
         result.core_temperature = float(np.mean(core[-readings:]))
@@ -59,6 +59,27 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
     elif test == "no-load":
         result.core_temperature = run.oil_temperature
     return result
+
+
+def _store(run: Run, label: str, window: list[Sample], r: MeasuredReading) -> None:
+    """The reading's own values (channel empty) and, for three phases, one row per channel."""
+    rows = [(None, r.mean, r.std)] + ([(k + 1, m, s) for k, (m, s) in enumerate(zip(r.phase_mean, r.phase_std))]
+                                      if r.phases == 3 else [])
+    for channel, mean, std in rows:
+        stats = {f"{q}_{kind}": values[q] for kind, values in (("mean", mean), ("std", std)) for q in QUANTITIES}
+        run.store.add_reading(run.run_id, run.step_index, label, window[0].id, window[-1].last_id,
+                              {**stats, "count": r.count, "stable": r.stable, "channel": channel})
+
+
+def _phase_stats(window: list[Sample]) -> tuple[tuple[dict[str, float], ...], tuple[dict[str, float], ...]]:
+    """Means and standard deviations per phase over the window (the same reduction per channel)."""
+    means, stds = [], []
+    for k in range(len(window[0].phases)):
+        reduced = {q: window_stats(np.fromiter((getattr(s.phases[k], q) for s in window), float, len(window)))
+                   for q in QUANTITIES}
+        means.append({q: r["mean"] for q, r in reduced.items()})
+        stds.append({q: r["std"] for q, r in reduced.items()})
+    return tuple(means), tuple(stds)
 
 
 def _stats(window: list[Sample]) -> tuple[dict[str, float], dict[str, float], float]:

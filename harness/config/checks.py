@@ -13,7 +13,7 @@ from harness.common.errors import InputError, InputErrors
 from harness.common.yamlio import LoadedYaml
 from harness.config.sequence import Sequence
 from harness.config.station import Limits, Station
-from harness.config.steps import Measure, Prompt, Ramp, Repeat, Sweep, TargetStep, Wiring
+from harness.config.steps import Measure, Prompt, Ramp, Repeat, Resistance, Sweep, TargetStep, Wiring
 from harness.config.targets import parse_target
 
 _LIMIT_UNITS = {"voltage": "V", "current": "A", "power": "W", "energised_time": "s", "winding_temperature": "degC"}
@@ -80,9 +80,6 @@ class _Checker:
 
     def run(self) -> list[InputError]:
         seq = self.sequence
-        if seq.transformer.phases != 1:
-            self.fail(("transformer", "phases"), "the runner drives single-phase bays only; "
-                      "evaluate three-phase readings with 'harness evaluate'")
         outer = station_limits(self.station)
         self.limits_inside(seq.limits, outer, ("limits",), "station's hard")
         self.walk(seq.steps, ("steps",), outer.tightened(seq.limits), None)
@@ -101,7 +98,20 @@ class _Checker:
                 self.targets(step, here, step_limits, wiring)
             elif isinstance(step, Measure):
                 self.measure_wiring(step, here, wiring)
+            elif isinstance(step, Resistance):
+                self.resistance_channels(step, here)
         return wiring
+
+    def resistance_channels(self, step: Resistance, path: tuple[Any, ...]) -> None:
+        """Each winding needs one meter channel per line-to-line pair a phase count asks for."""
+        meter = self.station.instruments.resistance_meter
+        phases = self.sequence.transformer.phases
+        for i, winding in enumerate(step.windings):
+            given = meter.channels.get(winding) if meter is not None else None
+            count = 0 if given is None else 1 if isinstance(given, int) else len(given)
+            if count != phases:
+                self.fail(path + ("windings", i), f"the station's resistance meter has {count} channel(s) for the "
+                                                  f"{winding} winding; a {phases}-phase unit needs {phases}")
 
     def targets(self, step: Ramp | Sweep, path: tuple[Any, ...], limits: EffectiveLimits, wiring: Wiring | None) -> None:
         if wiring is None:

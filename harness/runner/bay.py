@@ -35,8 +35,9 @@ _KINDS = {"source": "ac_source", "analyser": "power_analyser", "resistance_meter
           "thermometer": "thermometer", "bay_control": "bay_control"}
 
 
-def open_bay(station: Station, rm: Any = None) -> Bay:
-    """Open every instrument the station names and ask each who it is.
+def open_bay(station: Station, rm: Any = None, phases: int = 1) -> Bay:
+    """Open every instrument the station names and ask each who it is; the analyser reads
+    channel 1, or channels 1 to 3 for a three-phase unit (one per line).
 
     Nothing is energised here; the caller then puts the source at zero with its output off.
     """
@@ -47,7 +48,9 @@ def open_bay(station: Station, rm: Any = None) -> Bay:
             spec: Instrument | None = getattr(station.instruments, role)
             if spec is None:
                 continue
-            instrument = open_instrument(kind, spec.resource, spec.profile, role, rm=rm, timeout_s=spec.timeout)
+            options = {"channels": tuple(range(1, phases + 1))} if role == "analyser" else {}
+            instrument = open_instrument(kind, spec.resource, spec.profile, role, rm=rm, timeout_s=spec.timeout,
+                                         **options)
             opened[role] = instrument
             identities.append(_identity(role, spec, instrument.identify()))
     except BaseException:

@@ -12,7 +12,7 @@ from typing import Any, Callable
 
 from drivers.errors import InstrumentReportedError
 from harness.common.clock import Clock
-from harness.common.reading import Phase, Sample, combine
+from harness.common.reading import SQRT3, Phase, Sample, combine
 from harness.config.checks import EffectiveLimits, rated_current, rated_voltage, resolve_target
 from harness.config.sequence import Sequence
 from harness.config.station import Station
@@ -93,6 +93,8 @@ class Run:
         limits = station_limits(self.station).tightened(self.sequence.limits)
         self.base_limits = limits
         self.supervisor = Supervisor(limits, self.station.readings, self.clock)
+        if self.sequence.transformer.phases == 3:
+            self.supervisor.setpoint_factor = SQRT3  # a three-phase source is set line-to-neutral
 
     # -- faults of the run's own parts ------------------------------------------------------------
     def raise_pending(self) -> None:

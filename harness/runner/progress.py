@@ -96,9 +96,19 @@ class Progress:
         table = Table.grid(padding=(0, 2))
         table.add_row(self._step, self._stage)
         if s is not None:
-            headroom = min((1 - s.u_rms / limits.voltage, "U"), (1 - s.i_rms / limits.current, "I"),
+            u_top = max(max(ph.u_rms, ph.u_mean) for ph in s.phases)
+            i_top = max(abs(ph.i_rms) for ph in s.phases)
+            headroom = min((1 - u_top / limits.voltage, "U"), (1 - i_top / limits.current, "I"),
                            (1 - abs(s.p) / limits.power, "P"))
-            table.add_row(f"U {s.u_rms:9.4g} V   U' {s.u_mean:9.4g} V   I {s.i_rms:9.4g} A   P {s.p:9.4g} W",
-                          f"headroom {100 * headroom[0]:5.1f} % ({headroom[1]})   set {s.setpoint:8.4g} V")
+            table.add_row(_values(s), f"headroom {100 * headroom[0]:5.1f} % ({headroom[1]})   set {s.setpoint:8.4g} V")
         return table
 
+
+
+def _values(s: Any) -> str:
+    """One line: U, U', I, P; three phases side by side (line-to-line U, line I, total P)."""
+    if len(s.phases) == 1:
+        return f"U {s.u_rms:9.4g} V   U' {s.u_mean:9.4g} V   I {s.i_rms:9.4g} A   P {s.p:9.4g} W"
+    u = " ".join(f"{ph.u_rms:.4g}" for ph in s.phases)
+    i = " ".join(f"{ph.i_rms:.4g}" for ph in s.phases)
+    return f"U {u} V   U' {s.u_mean:.4g} V   I {i} A   P {s.p:.4g} W"

@@ -95,7 +95,7 @@ def _run_on_bay(run_id: str, prepared: Prepared, station: Station, clock: Clock,
     never = {"confirmed": True, "method": "never energised", "notes": []}
     try:
         with signals.obeyed():
-            bay = open_bay(station)
+            bay = open_bay(station, phases=prepared.sequence.transformer.phases)
     except InstrumentError as exc:
         trip = Trip(f"instrument fault before energising: {exc}").as_dict()
         return _finish(recorder, run_id, "tripped", trip, None, None, never, [], signals)
@@ -168,6 +168,10 @@ def _evaluate(run: Run, status: str, trip: dict[str, Any] | None) -> tuple[Any, 
 def _start_at_zero(run: Run) -> None:
     """The source's output off and its setpoint at zero, confirmed, before the first step."""
     source = run.bay.source
+    phases = run.sequence.transformer.phases
+    if getattr(source, "phases", 1) != phases:
+        raise Trip(f"the source has {getattr(source, 'phases', 1)} phase(s); this {phases}-phase unit needs a "
+                   f"{phases}-phase source", step="start")
     source.set_output(False)
     source.set_voltage(0.0)
     source.set_frequency(run.sequence.transformer.frequency)  # both tests run at rated frequency

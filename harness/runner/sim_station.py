@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from harness.common.reading import SQRT3
 from harness.common.yamlio import load_text, validate
 from harness.config.station import Station
 
@@ -15,13 +16,13 @@ name: Simulated bay
 lab: Harness simulated test bay (no hardware)
 simulated: true
 instruments:
-  source: {{resource: "{source}", profile: generic-ac-source, timeout: 0.5 s}}
+  source: {{resource: "{source}", profile: {source_profile}, timeout: 0.5 s}}
   analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 0.5 s}}
   resistance_meter:
     resource: "{resistance_meter}"
     profile: generic-resistance-meter
     timeout: 0.5 s
-    channels: {{hv: 1, lv: 2}}
+    channels: {resistance_channels}
   thermometer:
     resource: "{thermometer}"
     profile: generic-thermometer
@@ -46,7 +47,7 @@ measurement_chain:      # the simulated analyser's accuracy, from the scenario; 
     current_ranges: [{current_ranges}]
   resistance_meter: {{reading: {rm_accuracy:g} %}}
   thermometer: {{accuracy: {th_accuracy:g} K}}
-limits:                 # the bay's hard limits: its source's ratings
+limits:                 # the bay's hard limits: its source's ratings (line-to-line, line currents)
   voltage: {max_voltage}
   current: {max_current}
   power: {max_power}
@@ -66,9 +67,16 @@ def scenario_fields(scenario: Any) -> dict[str, Any]:
     its analyser's instrument transformers, ranges and accuracy as the measurement chain."""
     src, an = scenario.source, scenario.analyser
     acc = an.accuracy
+    phases = getattr(scenario.transformer, "phases", 1)
+    # A three-phase source's ratings are per phase, line-to-neutral: the bay's voltage limit is
+    # the line-to-line voltage it can give, its power limit the three phases'.
+    line_voltage = src.max_voltage * (SQRT3 if phases == 3 else 1.0)
+    channels = ", ".join(f"{w}: {c}" for w, c in scenario.resistance_meter.channels.items())
     return {
-        "max_voltage": f"{src.max_voltage:g} V", "max_current": f"{src.max_current:g} A",
-        "max_power": f"{src.max_voltage * src.max_current:g} W", "max_slew": f"{src.max_slew:g} V/s",
+        "source_profile": "three-phase-ac-source" if phases == 3 else "generic-ac-source",
+        "resistance_channels": "{" + channels + "}",
+        "max_voltage": f"{line_voltage:g} V", "max_current": f"{src.max_current:g} A",
+        "max_power": f"{phases * src.max_voltage * src.max_current:g} W", "max_slew": f"{src.max_slew:g} V/s",
         "vt": an.vt_ratio, "ct": an.ct_ratio,
         "burden": "ideal (simulated)" if (an.vt_ratio, an.ct_ratio) != (1, 1) else "none: direct connection",
         "u_reading": acc.voltage.reading, "u_range": acc.voltage.range, "i_reading": acc.current.reading,

@@ -16,7 +16,7 @@ from harness.common.units import (
     Angle, ApparentPower, Current, Duration, Frequency, Percent, Power, Resistance, Temperature,
     Voltage, VoltageRate, quantity,
 )
-from harness.common.yamlio import load_model
+from harness.common.yamlio import load_model, read_input
 from harness.sim.faults import FaultSpec
 
 SPEC_VERSION = 1
@@ -225,8 +225,8 @@ def scenario_names() -> list[str]:
 
 def _is_scenario(path: Path) -> bool:
     try:
-        head = path.read_text(encoding="utf-8")[:400]
-    except OSError:
+        head = read_input(path)[:400]
+    except InputError:
         return False
     return "kind: scenario" in head
 

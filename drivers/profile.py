@@ -17,7 +17,7 @@ import string
 from pathlib import Path
 from typing import Any, ClassVar, Literal
 
-from pydantic import BaseModel, ConfigDict, ValidationInfo, field_validator, model_validator
+from pydantic import BaseModel, ConfigDict, Field, ValidationInfo, field_validator, model_validator
 
 from harness.common.errors import InputError
 from harness.common.yamlio import LoadedYaml, load_file, validate
@@ -285,7 +285,7 @@ class Expect(_Strict):
 
 
 class Profile(_Strict):
-    format: int
+    format: int = Field(strict=True)
     name: str
     kind: str
     description: str = ""

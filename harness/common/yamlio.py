@@ -260,9 +260,25 @@ def _message(err: dict[str, Any]) -> str:
         return f"unknown key '{err['loc'][-1]}'"
     if kind == "missing":
         return f"'{loc}' is required" if loc else "a required key is missing"
-    msg = str(err.get("msg", "invalid value"))
+    bound = _bound_message(err)
+    msg = bound or str(err.get("msg", "invalid value"))
     msg = msg.removeprefix("Value error, ").removeprefix("Assertion failed, ")
     return f"{loc}: {msg}" if loc else msg
+
+
+_BOUNDS = {"less_than_equal": ("le", "at most"), "less_than": ("lt", "below"),
+           "greater_than_equal": ("ge", "at least"), "greater_than": ("gt", "above")}
+
+
+def _bound_message(err: dict[str, Any]) -> str | None:
+    """'1e+308 must be at most 3600' rather than pydantic's wording, which omits the value given.
+
+    Quantities are held in SI units (V, A, W, s), so the numbers are in the field's SI unit."""
+    kind = _BOUNDS.get(str(err.get("type")))
+    value, ctx = err.get("input"), err.get("ctx") or {}
+    if kind is None or kind[0] not in ctx or isinstance(value, bool) or not isinstance(value, (int, float)):
+        return None
+    return f"{value:g} must be {kind[1]} {ctx[kind[0]]:g}"
 
 
 def validate(model: type[M], loaded: LoadedYaml, context: dict[str, Any] | None = None) -> M:

@@ -8,10 +8,12 @@ from pathlib import Path
 from typing import Any
 
 from harness.common.errors import InputError, UsageError
-from harness.common.yamlio import LoadedYaml, load_file, validate
+from drivers.profile import load_profile
+from harness.common.yamlio import LoadedYaml, load_file, load_text, validate
 from harness.config.checks import check
 from harness.config.sequence import Sequence
 from harness.config.station import Station
+from harness.config.station_checks import check_station
 from harness.runner.sim_station import SIM_STATION_FILE, sim_station
 
 
@@ -52,9 +54,11 @@ def prepare(options: RunOptions) -> Prepared:
             raise UsageError(f"--sim: {exc.message}") from exc
         station, station_text = sim_station(scenario=scenario)
         station_file = SIM_STATION_FILE
+        st_loaded = load_text(station_text, station_file)
     else:
         st_loaded = load_file(options.station)
         station, station_text, station_file = validate(Station, st_loaded), st_loaded.text, str(options.station)
+    check_station(station, st_loaded, load_profile)
     check(sequence, station, loaded)
     if options.yes and not station.simulated:
         raise InputError("--yes answers prompts only on the simulated bay; a real bay needs its operator",

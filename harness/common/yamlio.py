@@ -276,9 +276,11 @@ def _bound_message(err: dict[str, Any]) -> str | None:
     Quantities are held in SI units (V, A, W, s), so the numbers are in the field's SI unit."""
     kind = _BOUNDS.get(str(err.get("type")))
     value, ctx = err.get("input"), err.get("ctx") or {}
-    if kind is None or kind[0] not in ctx or isinstance(value, bool) or not isinstance(value, (int, float)):
+    bound = ctx.get(kind[0]) if kind else None
+    if not isinstance(bound, (int, float)) or isinstance(value, bool) or not isinstance(value, (int, float, str)):
         return None
-    return f"{value:g} must be {kind[1]} {ctx[kind[0]]:g}"
+    given = f"'{value}'" if isinstance(value, str) else f"{value:g}"
+    return f"{given} must be {kind[1]} {bound:g}"  # type: ignore[index]
 
 
 def validate(model: type[M], loaded: LoadedYaml, context: dict[str, Any] | None = None) -> M:

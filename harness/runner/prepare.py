@@ -49,8 +49,8 @@ def prepare(options: RunOptions) -> Prepared:
         try:
             scenario = load_scenario(options.scenario)
         except InputError as exc:
-            if exc.line:  # an error inside a scenario file keeps its position
-                raise
+            if exc.line or Path(options.scenario).suffix in (".yaml", ".yml"):
+                raise  # a scenario file's own error, at its place in the file
             raise UsageError(f"--sim: {exc.message}") from exc
         station, station_text = sim_station(scenario=scenario)
         station_file = SIM_STATION_FILE

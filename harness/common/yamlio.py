@@ -275,12 +275,14 @@ def _bound_message(err: dict[str, Any]) -> str | None:
 
     Quantities are held in SI units (V, A, W, s), so the numbers are in the field's SI unit."""
     kind = _BOUNDS.get(str(err.get("type")))
-    value, ctx = err.get("input"), err.get("ctx") or {}
-    bound = ctx.get(kind[0]) if kind else None
+    if kind is None:
+        return None
+    key, words = kind
+    value, bound = err.get("input"), (err.get("ctx") or {}).get(key)
     if not isinstance(bound, (int, float)) or isinstance(value, bool) or not isinstance(value, (int, float, str)):
         return None
     given = f"'{value}'" if isinstance(value, str) else f"{value:g}"
-    return f"{given} must be {kind[1]} {bound:g}"  # type: ignore[index]
+    return f"{given} must be {words} {bound:g}"
 
 
 def validate(model: type[M], loaded: LoadedYaml, context: dict[str, Any] | None = None) -> M:

@@ -17,7 +17,7 @@ import string
 from pathlib import Path
 from typing import Any, ClassVar, Literal
 
-from pydantic import BaseModel, ConfigDict, ValidationInfo, field_validator, model_validator
+from pydantic import BaseModel, ConfigDict, Field, ValidationInfo, field_validator, model_validator
 
 from harness.common.errors import InputError
 from harness.common.yamlio import LoadedYaml, load_file, validate
@@ -285,7 +285,7 @@ class Expect(_Strict):
 
 
 class Profile(_Strict):
-    format: int
+    format: int = Field(strict=True)
     name: str
     kind: str
     description: str = ""
@@ -409,7 +409,7 @@ def load_profile(name_or_path: str | Path, instrument_class: str | type) -> Prof
     """Load and validate a profile; every error is an :class:`InputError` at its place in the file."""
     kind = kind_of(instrument_class)
     path = profile_path(name_or_path, kind)
-    if not path.is_file():
+    if not path.exists():  # anything else that is there is refused by the loader, in its words
         raise InputError(f"no profile '{name_or_path}' for kind '{kind}' "
                          f"(available: {', '.join(available_profiles())})", str(path), 0, 0)
     loaded = load_file(path)

@@ -182,7 +182,7 @@ class Waveform(_Model):
 class Record(_Model):
     model_config = ConfigDict(frozen=True, extra="forbid", populate_by_name=True)
     schema_: str | None = Field(None, alias="$schema", description="JSON Schema for editors")
-    spec: int = Field(RECORD_SPEC, description="format version of the record")
+    spec: int = Field(RECORD_SPEC, strict=True, description="format version of the record")
     standard: Literal["iec", "ieee"] = "iec"
     transformer: Transformer
     no_load: NoLoadTest | None = None

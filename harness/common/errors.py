@@ -10,7 +10,7 @@ class HarnessError(Exception):
 class InputError(HarnessError):
     """Invalid input at a place in a file: printed as ``FILE:LINE:COLUMN: message``.
 
-    ``line`` and ``column`` are 1-based; 0 means "unknown".
+    ``line`` and ``column`` are 1-based; 0 means "unknown", and then it prints as ``FILE: message``.
     """
 
     def __init__(self, message: str, file: str = "<input>", line: int = 0, column: int = 0):
@@ -21,6 +21,8 @@ class InputError(HarnessError):
         super().__init__(self.__str__())
 
     def __str__(self) -> str:
+        if not self.line:
+            return f"{self.file}: {self.message}"
         return f"{self.file}:{self.line}:{self.column}: {self.message}"
 
 

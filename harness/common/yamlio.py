@@ -3,10 +3,21 @@
 The document is composed into nodes once; the walk records each node's mark under its path
 (mapping keys and sequence indices), rejects duplicate keys, and the data is then built from
 the same nodes. Pydantic errors are mapped back to the longest recorded prefix of their ``loc``.
+
+Every input file passes the same guards before it is parsed into a model, so hostile or broken
+input ends in one located error instead of a hang, a ``MemoryError`` or a ``RecursionError``:
+only regular files of at most ``MAX_FILE_BYTES`` are read (never a FIFO, a device or a
+directory); nesting deeper than ``MAX_DEPTH`` and documents of more than ``MAX_NODES`` values
+are refused while composing. Anchors and aliases are allowed (a sequence may reuse a block of
+limits), but every alias counts as the values it stands for, so an alias bomb hits ``MAX_NODES``
+after a few thousand values; an alias inside the value it names is refused. Dates stay text
+(the implicit YAML timestamp is not resolved) so that models parse them, with their own errors.
 """
 
 from __future__ import annotations
 
+import os
+import stat
 from pathlib import Path
 from typing import Any, TypeVar
 
@@ -17,6 +28,67 @@ from harness.common.errors import InputError, InputErrors
 
 Path_ = tuple[Any, ...]
 M = TypeVar("M", bound=BaseModel)
+
+# The largest real input (a record with a measurement chain) is 3.5 kB, 255 values and 7 levels
+# deep; these bounds leave wide room and keep the pure-Python parser well under a second.
+MAX_FILE_BYTES = 1024 * 1024
+MAX_DEPTH = 32
+MAX_NODES = 20_000
+_TIMESTAMP = "tag:yaml.org,2002:timestamp"
+
+
+class _GuardedLoader(yaml.SafeLoader):
+    """A safe loader that counts values (aliases expanded) and depth while composing."""
+
+    yaml_implicit_resolvers = {
+        first: [(tag, regexp) for tag, regexp in resolvers if tag != _TIMESTAMP]
+        for first, resolvers in yaml.SafeLoader.yaml_implicit_resolvers.items()
+    }
+
+    def __init__(self, text: str, file: str):
+        super().__init__(text)
+        self.name = file
+        self._depth = 0
+        self._nodes = 0
+        self._sizes: dict[int, int] = {}  # id(anchored node) -> values it stands for, once composed
+
+    def _refuse(self, message: str, mark: yaml.Mark) -> InputError:
+        return InputError(message, self.name, mark.line + 1, mark.column + 1)
+
+    def _count(self, values: int, mark: yaml.Mark) -> None:
+        self._nodes += values
+        if self._nodes > MAX_NODES:
+            raise self._refuse(f"more than {MAX_NODES} values (aliases counted as what they stand for); "
+                               "an input file of the harness is far smaller", mark)
+
+    def compose_node(self, parent: Any, index: Any) -> Any:
+        event = self.peek_event()
+        if isinstance(event, yaml.AliasEvent):
+            node = self.anchors.get(event.anchor)
+            if node is not None:
+                size = self._sizes.get(id(node))
+                if size is None:
+                    raise self._refuse(f"alias '*{event.anchor}' stands inside the value it names", event.start_mark)
+                self._count(size, event.start_mark)
+            return super().compose_node(parent, index)
+        self._depth += 1
+        if self._depth > MAX_DEPTH:
+            raise self._refuse(f"nested more than {MAX_DEPTH} levels deep", event.start_mark)
+        before = self._nodes
+        self._count(1, event.start_mark)
+        node = super().compose_node(parent, index)
+        self._depth -= 1
+        if getattr(event, "anchor", None) is not None:
+            self._sizes[id(node)] = self._nodes - before
+        return node
+
+    def construct_object(self, node: yaml.Node, deep: bool = False) -> Any:
+        try:
+            return super().construct_object(node, deep)
+        except (ValueError, OverflowError) as exc:  # e.g. a 5000-digit integer, '!!timestamp 2026-02-30'
+            mark = node.start_mark
+            reason = str(exc).split(";")[0]  # drop Python's advice on its own integer-digit limit
+            raise InputError(f"cannot read this value: {reason}", self.name, mark.line + 1, mark.column + 1) from None
 
 
 class LoadedYaml:
@@ -63,10 +135,10 @@ def _walk(node: yaml.Node, path: Path_, marks: dict, key_marks: dict, file: str)
 
 
 def load_text(text: str, file: str = "<input>") -> LoadedYaml:
-    """Parse YAML text; syntax errors and duplicate keys become :class:`InputError`."""
-    loader = yaml.SafeLoader(text)
-    loader.name = file
+    """Parse YAML text; syntax errors, duplicate keys and the guards' refusals become :class:`InputError`."""
+    loader: _GuardedLoader | None = None
     try:
+        loader = _GuardedLoader(text, file)
         node = loader.get_single_node()
         if node is None:
             raise InputError("the file is empty", file, 1, 1)
@@ -78,22 +150,79 @@ def load_text(text: str, file: str = "<input>") -> LoadedYaml:
         mark = exc.problem_mark or exc.context_mark
         line, col = (mark.line + 1, mark.column + 1) if mark else (1, 1)
         raise InputError(f"YAML syntax: {exc.problem or exc.context}", file, line, col) from exc
+    except yaml.reader.ReaderError as exc:
+        line, col = _position(text, exc.position)
+        raise InputError(f"control character U+{exc.character:04X} is not allowed in a YAML file", file, line, col) from exc
     except yaml.YAMLError as exc:
         raise InputError(f"YAML: {exc}", file, 1, 1) from exc
     finally:
-        loader.dispose()
+        if loader is not None:
+            loader.dispose()
     return LoadedYaml(data, marks, key_marks, file, text)
 
 
-def load_file(path: str | Path) -> LoadedYaml:
-    path = Path(path)
+def _position(text: str, index: int) -> tuple[int, int]:
+    """1-based line and column of a character index."""
+    before = text[:index]
+    return before.count("\n") + 1, index - (before.rfind("\n") + 1) + 1
+
+
+def read_input(path: str | Path) -> str:
+    """The text of an input file, refused unless it is a regular UTF-8 file of at most ``MAX_FILE_BYTES``.
+
+    The file is opened without blocking and checked on the open descriptor, so a FIFO cannot
+    stall the open and a file swapped after a check is still caught; the read stops one byte past
+    the bound, so ``/dev/zero`` or a growing file cannot fill memory.
+    """
+    name = str(path)
     try:
-        text = path.read_text(encoding="utf-8")
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0))
     except OSError as exc:
-        raise InputError(f"cannot read the file: {exc.strerror or exc}", str(path), 0, 0) from exc
+        raise InputError(f"cannot read the file: {exc.strerror or exc}", name) from exc
+    try:
+        kind = _file_kind(os.fstat(fd).st_mode)
+        if kind is not None:
+            raise InputError(f"not a regular file but {kind}; give the path of a YAML file", name)
+        data = _read_at_most(fd, MAX_FILE_BYTES + 1)
+    except OSError as exc:
+        raise InputError(f"cannot read the file: {exc.strerror or exc}", name) from exc
+    finally:
+        os.close(fd)
+    if len(data) > MAX_FILE_BYTES:
+        raise InputError(f"larger than {MAX_FILE_BYTES // 1024} KiB; an input file of the harness is far smaller", name)
+    try:
+        return data.decode("utf-8")
     except UnicodeDecodeError as exc:
-        raise InputError(f"not UTF-8 text: {exc.reason}", str(path), 1, 1) from exc
-    return load_text(text, str(path))
+        good = data[: exc.start].decode("utf-8")
+        raise InputError(f"not UTF-8 text: {exc.reason}", name, *_position(good, len(good))) from exc
+
+
+def _read_at_most(fd: int, limit: int) -> bytes:
+    chunks: list[bytes] = []
+    size = 0
+    while size < limit:
+        chunk = os.read(fd, min(65536, limit - size))
+        if not chunk:
+            break
+        chunks.append(chunk)
+        size += len(chunk)
+    return b"".join(chunks)
+
+
+def _file_kind(mode: int) -> str | None:
+    """None for a regular file, else what it is, in words."""
+    if stat.S_ISREG(mode):
+        return None
+    for test, words in ((stat.S_ISDIR, "a directory"), (stat.S_ISFIFO, "a FIFO (named pipe)"),
+                        (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+                        (stat.S_ISSOCK, "a socket")):
+        if test(mode):
+            return words
+    return "a special file"
+
+
+def load_file(path: str | Path) -> LoadedYaml:
+    return load_text(read_input(path), str(path))
 
 
 def _clean_loc(loc: tuple[Any, ...], loaded: LoadedYaml) -> tuple[Any, ...]:
@@ -131,9 +260,29 @@ def _message(err: dict[str, Any]) -> str:
         return f"unknown key '{err['loc'][-1]}'"
     if kind == "missing":
         return f"'{loc}' is required" if loc else "a required key is missing"
-    msg = str(err.get("msg", "invalid value"))
+    bound = _bound_message(err)
+    msg = bound or str(err.get("msg", "invalid value"))
     msg = msg.removeprefix("Value error, ").removeprefix("Assertion failed, ")
     return f"{loc}: {msg}" if loc else msg
+
+
+_BOUNDS = {"less_than_equal": ("le", "at most"), "less_than": ("lt", "below"),
+           "greater_than_equal": ("ge", "at least"), "greater_than": ("gt", "above")}
+
+
+def _bound_message(err: dict[str, Any]) -> str | None:
+    """'1e+308 must be at most 3600' rather than pydantic's wording, which omits the value given.
+
+    Quantities are held in SI units (V, A, W, s), so the numbers are in the field's SI unit."""
+    kind = _BOUNDS.get(str(err.get("type")))
+    if kind is None:
+        return None
+    key, words = kind
+    value, bound = err.get("input"), (err.get("ctx") or {}).get(key)
+    if not isinstance(bound, (int, float)) or isinstance(value, bool) or not isinstance(value, (int, float, str)):
+        return None
+    given = f"'{value}'" if isinstance(value, str) else f"{value:g}"
+    return f"{given} must be {words} {bound:g}"
 
 
 def validate(model: type[M], loaded: LoadedYaml, context: dict[str, Any] | None = None) -> M:

@@ -7,7 +7,7 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field
 
 from harness.calc.record import ComplianceRule, Guarantees, Tolerances, Transformer, Waveform
-from harness.config.station import Limits
+from harness.config.station import FormatVersion, Limits
 from harness.config.steps import AnyStep
 
 SEQUENCE_SPEC = 1
@@ -25,7 +25,7 @@ class Unit(BaseModel):
 class Sequence(BaseModel):
     model_config = ConfigDict(frozen=True, extra="forbid", populate_by_name=True)
     schema_: str | None = Field(None, alias="$schema", description="JSON Schema for editors")
-    spec: Literal[1] = Field(description="format version of the sequence file")
+    spec: FormatVersion = Field(description="format version of the sequence file")
     name: str = Field(min_length=1)
     operator: str | None = None
     unit: Unit

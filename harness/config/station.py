@@ -7,14 +7,44 @@ station, sequence and step on every setpoint and every reading.
 from __future__ import annotations
 
 import datetime as dt
-from typing import Literal
+import re
+from typing import Annotated, Any, Literal, Union
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+from pydantic import (BaseModel, BeforeValidator, ConfigDict, Discriminator, Field, Tag, field_validator,
+                      model_validator)
 
 from harness.calc.chain import MeasurementChain
+from harness.common import bounds as b
 from harness.common.units import (Current, Duration, Power, Temperature, Voltage, VoltageRate)
 
 STATION_SPEC = 1
+_ISO_DATE = re.compile(r"\d{4}-\d{2}-\d{2}")
+
+
+def _whole_number(value: Any) -> Any:
+    """A format version is written as a whole number: not ``true``, ``1.0`` or ``'1'``."""
+    if type(value) is not int:
+        raise ValueError(f"the format version is a whole number such as 1, not {value!r}")
+    return value
+
+
+def _iso_date(value: Any) -> Any:
+    """A date written as ``YYYY-MM-DD`` (ISO 8601). A bare number is refused: pydantic would read
+    it as seconds since 1970."""
+    if isinstance(value, dt.date) and not isinstance(value, dt.datetime):
+        return value
+    if isinstance(value, str) and _ISO_DATE.fullmatch(value.strip()):
+        return value.strip()
+    raise ValueError(f"write the date as YYYY-MM-DD (ISO 8601), e.g. 2027-03-01, not {value!r}")
+
+
+FormatVersion = Annotated[Literal[1], BeforeValidator(_whole_number)]
+CalibrationDate = Annotated[dt.date, BeforeValidator(_iso_date)]
+Channel = Annotated[int, Field(strict=True, ge=1, le=b.MAX_CHANNEL)]
+# One channel, or (a three-phase winding's resistance) a list of them: told apart by the YAML's
+# shape, so a wrong value gets the one error of the shape it has, not one per alternative.
+Channels = Annotated[Union[Annotated[Channel, Tag("one")], Annotated[list[Channel], Tag("list")]],
+                     Discriminator(lambda v: "list" if isinstance(v, list) else "one")]
 
 
 class Frozen(BaseModel):
@@ -22,11 +52,11 @@ class Frozen(BaseModel):
 
 
 class Instrument(Frozen):
-    resource: str = Field(description="VISA resource string, e.g. TCPIP0::10.0.0.5::5025::SOCKET")
-    profile: str = Field(description="command profile: a name in drivers/profiles or a path")
-    timeout: Duration = Field(2.0, description="reply timeout (real seconds)")
-    calibration_due: dt.date | None = None
-    channels: dict[str, int | list[int]] = Field(default_factory=dict, description=(
+    resource: str = Field(min_length=1, description="VISA resource string, e.g. TCPIP0::10.0.0.5::5025::SOCKET")
+    profile: str = Field(min_length=1, description="command profile: a name in drivers/profiles or a path")
+    timeout: Duration = Field(2.0, gt=0, le=b.MAX_REPLY_TIMEOUT_S, description="reply timeout (real seconds)")
+    calibration_due: CalibrationDate | None = Field(None, description="YYYY-MM-DD")
+    channels: dict[str, Channels] = Field(default_factory=dict, description=(
         "named channels (thermometer, resistance meter); a three-phase unit's resistance meter takes "
         "three per winding, the line-to-line pairs 1-2, 2-3, 3-1"))
 
@@ -41,48 +71,49 @@ class Instruments(Frozen):
 
 class MeasurementWiring(Frozen):
     """Instrument-transformer ratios between the bay and the analyser inputs."""
-    vt_ratio: float = Field(1.0, gt=0, description="primary/secondary voltage ratio")
-    ct_ratio: float = Field(1.0, gt=0, description="primary/secondary current ratio")
+    vt_ratio: float = Field(1.0, gt=0, le=b.MAX_TRANSFORMER_RATIO, description="primary/secondary voltage ratio")
+    ct_ratio: float = Field(1.0, gt=0, le=b.MAX_TRANSFORMER_RATIO, description="primary/secondary current ratio")
 
 
 class Limits(Frozen):
     """Upper bounds on primary quantities; None means 'no further limit at this level'."""
-    voltage: Voltage | None = Field(None, gt=0)
-    current: Current | None = Field(None, gt=0)
-    power: Power | None = Field(None, gt=0)
-    energised_time: Duration | None = Field(None, gt=0)
-    winding_temperature: Temperature | None = None
+    voltage: Voltage | None = Field(None, gt=0, le=b.MAX_VOLTAGE_V)
+    current: Current | None = Field(None, gt=0, le=b.MAX_CURRENT_A)
+    power: Power | None = Field(None, gt=0, le=b.MAX_POWER_W)
+    energised_time: Duration | None = Field(None, gt=0, le=b.MAX_DURATION_S)
+    winding_temperature: Temperature | None = Field(None, gt=0, le=b.MAX_WINDING_TEMPERATURE_C)
 
 
 class StationLimits(Limits):
     """The bay's hard limits: every one must be given."""
-    voltage: Voltage = Field(gt=0)
-    current: Current = Field(gt=0)
-    power: Power = Field(gt=0)
-    energised_time: Duration = Field(gt=0)
-    winding_temperature: Temperature = 120.0
-    slew: VoltageRate = Field(gt=0, description="fastest allowed change of the source voltage")
+    voltage: Voltage = Field(gt=0, le=b.MAX_VOLTAGE_V)
+    current: Current = Field(gt=0, le=b.MAX_CURRENT_A)
+    power: Power = Field(gt=0, le=b.MAX_POWER_W)
+    energised_time: Duration = Field(gt=0, le=b.MAX_DURATION_S)
+    winding_temperature: Temperature = Field(120.0, gt=0, le=b.MAX_WINDING_TEMPERATURE_C)
+    slew: VoltageRate = Field(ge=b.MIN_SLEW_V_PER_S, le=b.MAX_SLEW_V_PER_S,
+                              description="fastest allowed change of the source voltage")
 
 
 class SafeState(Frozen):
-    source_watchdog: Duration | None = Field(30.0, gt=0, description=(
+    source_watchdog: Duration | None = Field(30.0, gt=0, le=b.MAX_INTERVAL_S, description=(
         "arm the source's communication watchdog (if its profile has one): with no command this long "
         "while on, the source itself drops to zero and off; null leaves it disarmed"))
     deenergised_voltage: Voltage = Field(5.0, gt=0, description="below this the bay counts as off")
     deenergised_current: Current = Field(0.05, gt=0)
-    confirm_timeout: Duration = Field(5.0, gt=0, description="bay seconds to confirm de-energisation")
+    confirm_timeout: Duration = Field(5.0, gt=0, le=b.MAX_INTERVAL_S, description="bay seconds to confirm de-energisation")
 
 
 class ReadingChecks(Frozen):
-    late_after: Duration = Field(1.0, gt=0, description="a snapshot slower than this is a fault (bay s)")
-    stale_after: Duration = Field(5.0, gt=0, description="identical snapshots this long while energised are a fault")
-    temperature_interval: Duration = Field(2.0, gt=0, description="winding temperature read this often while energised")
-    source_check_interval: Duration = Field(2.0, gt=0, description=(
+    late_after: Duration = Field(1.0, gt=0, le=b.MAX_INTERVAL_S, description="a snapshot slower than this is a fault (bay s)")
+    stale_after: Duration = Field(5.0, gt=0, le=b.MAX_INTERVAL_S, description="identical snapshots this long while energised are a fault")
+    temperature_interval: Duration = Field(2.0, gt=0, le=b.MAX_INTERVAL_S, description="winding temperature read this often while energised")
+    source_check_interval: Duration = Field(2.0, gt=0, le=b.MAX_INTERVAL_S, description=(
         "the source's output state is read back this often while energised (and feeds its watchdog)"))
 
 
 class Station(Frozen):
-    spec: Literal[1] = Field(description="format version of the station file")
+    spec: FormatVersion = Field(description="format version of the station file")
     name: str
     lab: str
     simulated: bool = False

@@ -6,6 +6,7 @@ from typing import Annotated, Literal, Union
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
+from harness.common import bounds as b
 from harness.common.units import Duration, Percent
 from harness.config.station import Limits
 from harness.config.targets import Target
@@ -60,9 +61,9 @@ class Measure(Step):
     kind: Literal["measure"]
     test: Test = Field(description="what the readings are: no-load, load-loss or none")
     label: str | None = Field(None, description="e.g. 'no-load at rated voltage'")
-    readings: int = Field(10, ge=2, le=10000)
-    interval: Duration = Field(1.0, gt=0)
-    stability: Percent = Field(0.5, gt=0, description="largest relative standard deviation of U, I and P")
+    readings: int = Field(10, ge=2, le=b.MAX_READINGS)
+    interval: Duration = Field(1.0, gt=0, le=b.MAX_INTERVAL_S)
+    stability: Percent = Field(0.5, gt=0, le=100, description="largest relative standard deviation of U, I and P")
     max_readings: int = Field(60, ge=2, le=100000)
 
     @model_validator(mode="after")
@@ -74,12 +75,12 @@ class Measure(Step):
 
 class Sweep(OnQuantity):
     kind: Literal["sweep"]
-    voltage: list[Target] | None = Field(None, min_length=1)
-    current: list[Target] | None = Field(None, min_length=1)
+    voltage: list[Target] | None = Field(None, min_length=1, max_length=b.MAX_SWEEP_POINTS)
+    current: list[Target] | None = Field(None, min_length=1, max_length=b.MAX_SWEEP_POINTS)
     tolerance: Percent = Field(0.5, gt=0, le=5)
-    readings: int = Field(5, ge=2)
-    interval: Duration = Field(1.0, gt=0)
-    stability: Percent = Field(1.0, gt=0)
+    readings: int = Field(5, ge=2, le=b.MAX_READINGS)
+    interval: Duration = Field(1.0, gt=0, le=b.MAX_INTERVAL_S)
+    stability: Percent = Field(1.0, gt=0, le=100)
     test: Test = "no-load"
 
     @property
@@ -89,13 +90,13 @@ class Sweep(OnQuantity):
 
 class Hold(Step):
     kind: Literal["hold"]
-    duration: Duration = Field(gt=0)
-    interval: Duration = Field(1.0, gt=0, description="reading interval while holding")
+    duration: Duration = Field(gt=0, le=b.MAX_DURATION_S)
+    interval: Duration = Field(1.0, gt=0, le=b.MAX_INTERVAL_S, description="reading interval while holding")
 
 
 class Wait(Step):
     kind: Literal["wait"]
-    duration: Duration = Field(gt=0)
+    duration: Duration = Field(gt=0, le=b.MAX_DURATION_S)
 
 
 class Off(Step):

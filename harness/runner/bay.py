@@ -7,6 +7,7 @@ from typing import Any
 
 from drivers import open_instrument
 from harness.config.station import Instrument, Station
+from harness.config.station_checks import ROLE_KINDS
 
 
 @dataclass
@@ -31,10 +32,6 @@ class Bay:
                 pass
 
 
-_KINDS = {"source": "ac_source", "analyser": "power_analyser", "resistance_meter": "resistance_meter",
-          "thermometer": "thermometer", "bay_control": "bay_control"}
-
-
 def open_bay(station: Station, rm: Any = None, phases: int = 1) -> Bay:
     """Open every instrument the station names and ask each who it is; the analyser reads
     channel 1, or channels 1 to 3 for a three-phase unit (one per line).
@@ -44,7 +41,7 @@ def open_bay(station: Station, rm: Any = None, phases: int = 1) -> Bay:
     opened: dict[str, Any] = {}
     identities: list[dict[str, Any]] = []
     try:
-        for role, kind in _KINDS.items():
+        for role, kind in ROLE_KINDS.items():
             spec: Instrument | None = getattr(station.instruments, role)
             if spec is None:
                 continue

@@ -8,11 +8,13 @@ from pathlib import Path
 from typing import Any
 
 from harness.common.errors import InputError, UsageError
-from harness.common.yamlio import LoadedYaml, load_file, validate
+from drivers.profile import load_profile
+from harness.common.yamlio import LoadedYaml, load_file, load_text, validate
 from harness.config.checks import check
 from harness.config.sequence import Sequence
 from harness.config.station import Station
 from harness.runner import steps as _steps  # noqa: F401 - a step model without an executor fails here, before check passes
+from harness.config.station_checks import check_station
 from harness.runner.sim_station import SIM_STATION_FILE, sim_station
 
 
@@ -48,14 +50,16 @@ def prepare(options: RunOptions) -> Prepared:
         try:
             scenario = load_scenario(options.scenario)
         except InputError as exc:
-            if exc.line:  # an error inside a scenario file keeps its position
-                raise
+            if exc.line or Path(options.scenario).suffix in (".yaml", ".yml"):
+                raise  # a scenario file's own error, at its place in the file
             raise UsageError(f"--sim: {exc.message}") from exc
         station, station_text = sim_station(scenario=scenario)
         station_file = SIM_STATION_FILE
+        st_loaded = load_text(station_text, station_file)
     else:
         st_loaded = load_file(options.station)
         station, station_text, station_file = validate(Station, st_loaded), st_loaded.text, str(options.station)
+    check_station(station, st_loaded, load_profile)
     check(sequence, station, loaded)
     if options.yes and not station.simulated:
         raise InputError("--yes answers prompts only on the simulated bay; a real bay needs its operator",

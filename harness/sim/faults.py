@@ -12,7 +12,11 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
+from harness.common import bounds as b
 from harness.common.units import Duration, Voltage
+
+# Analyser queries answered while energised: an hour of fast ramp readings is under 100 000.
+MAX_QUERIES = 1_000_000
 
 FAULTS: dict[str, str] = {
     "shorted-turn": "a shorted turn in the core window: the energised winding draws about ten times "
@@ -44,9 +48,9 @@ class FaultTrigger(BaseModel):
 
     model_config = ConfigDict(frozen=True, extra="forbid")
 
-    after_energised: Duration | None = Field(None, ge=0, description="bay seconds with the output on")
-    voltage_above: Voltage | None = Field(None, gt=0, description="source output voltage (rms)")
-    after_queries: int | None = Field(None, ge=0, description="analyser queries answered while energised")
+    after_energised: Duration | None = Field(None, ge=0, le=b.MAX_DURATION_S, description="bay seconds with the output on")
+    voltage_above: Voltage | None = Field(None, gt=0, le=b.MAX_VOLTAGE_V, description="source output voltage (rms)")
+    after_queries: int | None = Field(None, ge=0, le=MAX_QUERIES, description="analyser queries answered while energised")
 
     @model_validator(mode="after")
     def _one_condition(self) -> "FaultTrigger":
@@ -62,7 +66,7 @@ class FaultSpec(BaseModel):
     name: FaultName
     trigger: FaultTrigger = FaultTrigger()
     instrument: Role = "analyser"
-    repeat: int = Field(1, ge=1, description="garbled replies or dropped connections to cause")
+    repeat: int = Field(1, ge=1, le=b.MAX_READINGS, description="garbled replies or dropped connections to cause")
 
     @model_validator(mode="after")
     def _instrument_only_for_link_faults(self) -> "FaultSpec":

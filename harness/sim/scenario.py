@@ -11,12 +11,13 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
+from harness.common import bounds as b
 from harness.common.errors import InputError
 from harness.common.units import (
     Angle, ApparentPower, Current, Duration, Frequency, Percent, Power, Resistance, Temperature,
     Voltage, VoltageRate, quantity,
 )
-from harness.common.yamlio import load_model
+from harness.common.yamlio import load_model, read_input
 from harness.sim.faults import FaultSpec
 
 SPEC_VERSION = 1
@@ -54,7 +55,7 @@ class CoreSpec(_Frozen):
 
 class ThermalSpec(_Frozen):
     heat_capacity: HeatCapacity = Field(gt=0)
-    time_constant: Duration = Field(gt=0)
+    time_constant: Duration = Field(gt=0, le=b.MAX_DURATION_S)
 
 
 class TransformerSpec(_Frozen):
@@ -97,10 +98,10 @@ class HarmonicSpec(_Frozen):
 
 
 class SourceSpec(_Frozen):
-    max_voltage: Voltage = Field(gt=0)
-    max_current: Current = Field(gt=0)
-    max_slew: VoltageRate = Field(gt=0)
-    settling_time_constant: Duration = Field(ge=0)
+    max_voltage: Voltage = Field(gt=0, le=b.MAX_VOLTAGE_V)
+    max_current: Current = Field(gt=0, le=b.MAX_CURRENT_A)
+    max_slew: VoltageRate = Field(ge=b.MIN_SLEW_V_PER_S, le=b.MAX_SLEW_V_PER_S)
+    settling_time_constant: Duration = Field(ge=0, le=b.MAX_INTERVAL_S)
     min_frequency: Frequency = Field(45.0, gt=0)
     max_frequency: Frequency = Field(65.0, gt=0)
     output_resistance: Resistance = Field(0.0, ge=0)
@@ -137,7 +138,7 @@ class AnalyserSpec(_Frozen):
     current_ranges: tuple[Current, ...] = Field(min_length=1)
     accuracy: QuantitySpecs = QuantitySpecs()
     noise: QuantitySpecs = QuantitySpecs()
-    update_interval: Duration = Field(0.2, gt=0)
+    update_interval: Duration = Field(0.2, gt=0, le=b.MAX_INTERVAL_S)
     overload_factor: float = Field(1.2, ge=1.0, le=2.0)
     vt_ratio: float = Field(1.0, gt=0, description="voltage transformer ahead of the analyser: primary/secondary")
     ct_ratio: float = Field(1.0, gt=0, description="current transformer ahead of the analyser: primary/secondary")
@@ -196,7 +197,7 @@ class BaySpec(_Frozen):
 
 
 class Scenario(_Frozen):
-    spec: int
+    spec: int = Field(strict=True)
     kind: Literal["scenario"] = "scenario"
     name: str = Field(min_length=1)
     description: str = ""
@@ -225,8 +226,8 @@ def scenario_names() -> list[str]:
 
 def _is_scenario(path: Path) -> bool:
     try:
-        head = path.read_text(encoding="utf-8")[:400]
-    except OSError:
+        head = read_input(path)[:400]
+    except InputError:
         return False
     return "kind: scenario" in head
 

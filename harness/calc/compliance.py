@@ -27,6 +27,10 @@ EU: Commission Regulation (EU) No 548/2014 as amended by Commission Regulation (
   (Um above 1.1 kV and not above 36 kV, rated power from 5 kVA to below 40 MVA), large (Um above
   36 kV and rated power from 5 kVA, or rated power from 40 MVA whatever Um); liquid-immersed and
   dry-type. The amendments 2019/1783 made to Article 2 were not read.
+* Which requirement applies (structure only, no values), from secondary pages: three-phase medium
+  units up to 3150 kVA by maximum losses (Table I.1 liquid-immersed, I.2 dry-type), liquid-immersed
+  pole-mounted units of 25 to 315 kVA by their own table (intercom.help/414 "Regulation
+  548/2014"), larger units by a minimum PEI (Schneider Electric FAQ FA335966).
 * The Peak Efficiency Index, PEI = 1 - 2 (P0 + Pc0) / (Sr sqrt((P0 + Pc0) / Pk)), the index at
   the load factor where the load loss equals P0 + Pc0. The Annex text defining it was not
   retrieved: the form is recalled, and tests check it against a direct maximisation of
@@ -192,6 +196,10 @@ EU_DEFINITIONS = "Regulation (EU) No 548/2014 Article 2"
 # Peak Efficiency ... for transformers > 3150 kVA"; "Table 2: Requirements for medium power
 # transformers with rated power > 3 150 kVA", intercom.help/414 "Regulation 548/2014").
 EU_MEDIUM_LOSS_TABLE_MAX_VA = 3150e3
+# "The levels of load and no-load losses indicated in Table 1 are not applicable to liquid immersed
+# pole-mounted transformers with power ratings between 25 kVA and 315 kVA" (intercom.help/414
+# "Regulation 548/2014"); Article 2(7) (2014 text) defines the pole-mounted unit "up to 315 kVA".
+EU_POLE_MOUNTED_KVA = (25.0, 315.0)
 
 
 def eu_power_class(rated_power_VA: float, highest_voltage_V: float | None) -> str | None:
@@ -256,11 +264,21 @@ def eu_ecodesign_tier2(d: EuInputs) -> tuple[list[ComplianceCheck], list[str]]:
     at = f" at {d.load_loss_reference_C:g} degC" if d.load_loss_reference_C is not None else " at test temperature"
     losses = f"P0 = {d.no_load_loss_W:.4g} W, Pk{at} = {d.load_loss_W:.4g} W"
     if cls == "medium" and d.rated_power_VA <= EU_MEDIUM_LOSS_TABLE_MAX_VA:
-        table = {"liquid-immersed": "Table I.1 (liquid-immersed)", "dry-type": "Table I.2 (dry-type)"}.get(
-            d.insulation or "", "Table I.1 or I.2 (the nameplate lacks its insulation)")
-        return [], [f"{unit}, {losses}; the Tier 2 maximum losses of Annex I {table} are not carried by the "
-                    "harness (no copy of the Annex text could be sourced): no verdict."]
+        return [], [f"{unit}, {losses}; {_medium_table(d)} not carried by the harness (no copy of the Annex "
+                    "text could be sourced): no verdict."]
     pei = peak_efficiency_index(d.no_load_loss_W, d.load_loss_W, d.rated_power_VA)
     return [], [f"{unit}, {losses}; PEI = {100 * pei:.3f} % (Pc0 taken as 0: the record gives no cooling "
                 "power); the Tier 2 minimum PEI of Annex I is not carried by the harness (no copy of the Annex "
                 "text could be sourced): no verdict."]
+
+
+def _medium_table(d: EuInputs) -> str:
+    """Which Annex I requirement a medium power transformer up to 3150 kVA answers to."""
+    if d.phases != 3:
+        return "the Tier 2 requirements of Annex I for single-phase medium power transformers are"
+    table = {"liquid-immersed": "Table I.1 (liquid-immersed)", "dry-type": "Table I.2 (dry-type)"}.get(
+        d.insulation or "", "Table I.1 or I.2 (the nameplate lacks its insulation)")
+    low, high = EU_POLE_MOUNTED_KVA
+    pole = (" (or, pole-mounted, the pole-mounted table)"
+            if d.insulation == "liquid-immersed" and low <= d.rated_power_VA / 1e3 <= high else "")
+    return f"the Tier 2 maximum losses of Annex I {table}{pole} are"

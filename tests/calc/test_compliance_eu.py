@@ -93,6 +93,12 @@ def test_a_medium_unit_gets_its_class_and_losses_never_a_verdict():
     assert "Table I.1" in warning and "not carried" in warning and "no verdict" in warning
     (_, (dry,)) = compliance.eu_ecodesign_tier2(_inputs(insulation="dry-type"))
     assert "Table I.2" in dry
+    # Table 1 "not applicable to liquid immersed pole-mounted transformers with power ratings between
+    # 25 kVA and 315 kVA" (intercom.help/414): the warning names that table too, in that range only.
+    (_, (small,)) = compliance.eu_ecodesign_tier2(_inputs(rated_power_VA=250e3))
+    assert "pole-mounted table" in small and "pole-mounted" not in warning
+    (_, (single,)) = compliance.eu_ecodesign_tier2(_inputs(phases=1, rated_power_VA=100e3))
+    assert "single-phase medium power transformers" in single and "Table I.1" not in single
 
 
 def test_a_large_unit_gets_its_pei_never_a_verdict():

@@ -14,9 +14,34 @@ Sources (copied from the regulation's text, never filled in):
   tables put the efficiency at 35 % (low-voltage dry-type) and 50 % (liquid-immersed) of
   nameplate-rated load, determined per appendix A to subpart K.
 * Not carried: the medium-voltage dry-type table of § 431.196(c) (it is set per BIL group, which
-  the nameplate model does not hold) and the 2029 tables; Regulation (EU) No 548/2014 as amended
-  by 2019/1783, Annex I Tier 2 tables (no copy of the Annex text could be retrieved: a record
-  asking for ``eu-ecodesign-tier2`` gets a warning, never a verdict from invented rows).
+  the nameplate model does not hold) and the 2029 tables.
+
+EU: Commission Regulation (EU) No 548/2014 as amended by Commission Regulation (EU) 2019/1783 (rule
+``eu-ecodesign-tier2``). What is carried, with where it was read:
+
+* Scope, Article 1(1) as replaced by 2019/1783 Article 1(1): power transformers "with a minimum
+  power rating of 1 kVA used in 50 Hz electricity transmission and distribution networks or for
+  industrial applications" (legislation.gov.uk/eur/2019/1783/body/data.html, read).
+* Classes, Article 2(2) to (6) in the 2014 text (legislation.gov.uk/eur/2014/548/article/2/
+  2014-05-21/data.html, read): small (highest voltage for equipment Um not above 1.1 kV), medium
+  (Um above 1.1 kV and not above 36 kV, rated power from 5 kVA to below 40 MVA), large (Um above
+  36 kV and rated power from 5 kVA, or rated power from 40 MVA whatever Um); liquid-immersed and
+  dry-type. The amendments 2019/1783 made to Article 2 were not read.
+* Which requirement applies (structure only, no values), from secondary pages: three-phase medium
+  units up to 3150 kVA by maximum losses (Table I.1 liquid-immersed, I.2 dry-type), liquid-immersed
+  pole-mounted units of 25 to 315 kVA by their own table (intercom.help/414 "Regulation
+  548/2014"), larger units by a minimum PEI (Schneider Electric FAQ FA335966).
+* The Peak Efficiency Index, PEI = 1 - 2 (P0 + Pc0) / (Sr sqrt((P0 + Pc0) / Pk)), the index at
+  the load factor where the load loss equals P0 + Pc0. The Annex text defining it was not
+  retrieved: the form is recalled, and tests check it against a direct maximisation of
+  1 - (P0 + Pc0 + k^2 Pk) / (k Sr) over the load factor k.
+* Not carried, for want of a copy of the Annex text (every search of the public text of Annex I
+  came back without it): the Tier 2 maximum load and no-load losses of Annex I (Table I.1
+  liquid-immersed, Table I.2 dry-type), the rule for ratings between rows, the corrections for
+  other voltage combinations or dual voltage, the pole-mounted table and the minimum PEI tables.
+  A record asking for ``eu-ecodesign-tier2`` gets the unit's class, its losses at the reference
+  temperature and, where the index is the criterion, its PEI, in a warning: never a verdict
+  from invented rows.
 
 Appendix A test conditions (recalled from 10 CFR 431 subpart K appendix A, not re-read): no-load
 loss corrected to 20 degC, load loss at 55 degC (liquid-immersed) or 75 degC (dry-type),
@@ -26,6 +51,7 @@ efficiency = P S / (P S + P0 + P^2 Pk) at unity power factor, P the per-unit loa
 from __future__ import annotations
 
 import bisect
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -154,6 +180,105 @@ def us_doe_2016(d: DoeInputs) -> tuple[list[ComplianceCheck], list[str]]:
     return [check], []
 
 
-def eu_ecodesign_tier2() -> tuple[list[ComplianceCheck], list[str]]:
-    return [], [f"{EU_ECODESIGN_TIER2}: not evaluated: the Tier 2 tables of Regulation (EU) No 548/2014 Annex I "
-                "(as amended by 2019/1783) are not carried by the harness (no copy of the Annex could be sourced)."]
+
+
+# Regulation (EU) No 548/2014, Article 1(1) as replaced by 2019/1783: 50 Hz networks, from 1 kVA.
+EU_FREQUENCY_HZ = 50.0
+EU_MIN_RATED_POWER_VA = 1e3
+# Article 2(2) to (4), 2014 text: the class boundaries.
+EU_SMALL_MAX_UM_V = 1.1e3
+EU_MEDIUM_MAX_UM_V = 36e3
+EU_MEDIUM_MIN_POWER_VA = 5e3
+EU_LARGE_POWER_VA = 40e6
+EU_DEFINITIONS = "Regulation (EU) No 548/2014 Article 2"
+# The rated power above which a medium power transformer is held to a minimum PEI rather than to
+# maximum losses (Schneider Electric FAQ FA335966, "EcoDesign regulation EU 548-2014": "Level of
+# Peak Efficiency ... for transformers > 3150 kVA"; "Table 2: Requirements for medium power
+# transformers with rated power > 3 150 kVA", intercom.help/414 "Regulation 548/2014").
+EU_MEDIUM_LOSS_TABLE_MAX_VA = 3150e3
+# "The levels of load and no-load losses indicated in Table 1 are not applicable to liquid immersed
+# pole-mounted transformers with power ratings between 25 kVA and 315 kVA" (intercom.help/414
+# "Regulation 548/2014"); Article 2(7) (2014 text) defines the pole-mounted unit "up to 315 kVA".
+EU_POLE_MOUNTED_KVA = (25.0, 315.0)
+
+
+def eu_power_class(rated_power_VA: float, highest_voltage_V: float | None) -> str | None:
+    """'small', 'medium' or 'large' power transformer by Article 2(2) to (4) (2014 text); None when
+    the nameplate does not settle it (no Um below 40 MVA) or the unit falls in no class (Um above
+    1.1 kV and under 5 kVA)."""
+    if rated_power_VA >= EU_LARGE_POWER_VA:
+        return "large"  # Art. 2(4): "regardless of the highest voltage for equipment"
+    if highest_voltage_V is None:
+        return None
+    if highest_voltage_V <= EU_SMALL_MAX_UM_V:
+        return "small"  # Art. 2(2)
+    if rated_power_VA < EU_MEDIUM_MIN_POWER_VA:
+        return None
+    return "medium" if highest_voltage_V <= EU_MEDIUM_MAX_UM_V else "large"  # Art. 2(3), 2(4)
+
+
+def peak_efficiency_index(p0_W: float, pk_W: float, rated_power_VA: float, pc0_W: float = 0.0) -> float:
+    """PEI = 1 - 2 (P0 + Pc0) / (Sr sqrt((P0 + Pc0) / Pk)), as a fraction (form recalled, see the
+    module notes). P0 no-load loss, Pc0 the power the cooling draws at no load, Pk the load loss at
+    rated current and reference temperature, Sr the rated power."""
+    if p0_W + pc0_W <= 0 or pk_W <= 0 or rated_power_VA <= 0:
+        raise ValueError("the PEI needs positive losses and rated power")
+    k_pei = math.sqrt((p0_W + pc0_W) / pk_W)
+    return 1.0 - 2.0 * (p0_W + pc0_W) / (rated_power_VA * k_pei)
+
+
+@dataclass(frozen=True)
+class EuInputs:
+    """What the EU evaluation needs from the nameplate and the corrected test results."""
+    rated_power_VA: float
+    phases: int
+    frequency_Hz: float
+    insulation: str | None
+    highest_voltage_V: float | None
+    """Highest Um of the windings; None when the nameplate gives none."""
+    no_load_loss_W: float | None
+    load_loss_W: float | None
+    """Load loss at rated current and reference temperature."""
+    load_loss_reference_C: float | None
+
+
+def eu_ecodesign_tier2(d: EuInputs) -> tuple[list[ComplianceCheck], list[str]]:
+    """The Tier 2 rule: warnings only, as no Annex I table is carried (see the module notes)."""
+    rule = EU_ECODESIGN_TIER2
+    if d.frequency_Hz != EU_FREQUENCY_HZ or d.rated_power_VA < EU_MIN_RATED_POWER_VA:
+        return [], [f"{rule}: not evaluated: the regulation covers power transformers from 1 kVA for 50 Hz "
+                    f"networks (Article 1(1)); this one is rated {d.rated_power_VA / 1e3:g} kVA, "
+                    f"{d.frequency_Hz:g} Hz."]
+    cls = eu_power_class(d.rated_power_VA, d.highest_voltage_V)
+    if cls is None:
+        why = ("the nameplate gives no highest voltage for equipment (Um) to class it by"
+               if d.highest_voltage_V is None else "it is neither a medium nor a large power transformer")
+        return [], [f"{rule}: not evaluated: {why} ({EU_DEFINITIONS})."]
+    kind = f"{d.insulation} " if d.insulation else ""
+    unit = f"{rule}: a {kind}{cls} power transformer ({EU_DEFINITIONS})"
+    if cls == "small":
+        return [], [f"{unit}; the Tier 2 requirements for small power transformers are not carried by the "
+                    "harness: no verdict."]
+    if d.no_load_loss_W is None or d.load_loss_W is None:
+        return [], [f"{unit}; not evaluated: the record lacks the no-load or the load-loss test."]
+    at = f" at {d.load_loss_reference_C:g} degC" if d.load_loss_reference_C is not None else " at test temperature"
+    losses = f"P0 = {d.no_load_loss_W:.4g} W, Pk{at} = {d.load_loss_W:.4g} W"
+    if cls == "medium" and d.rated_power_VA <= EU_MEDIUM_LOSS_TABLE_MAX_VA:
+        return [], [f"{unit}, {losses}; {_medium_table(d)} not carried by the harness (no copy of the Annex "
+                    "text could be sourced): no verdict."]
+    pei = peak_efficiency_index(d.no_load_loss_W, d.load_loss_W, d.rated_power_VA)
+    return [], [f"{unit}, {losses}; PEI = {100 * pei:.3f} % (Pc0 taken as 0: the record gives no cooling "
+                "power); the Tier 2 minimum PEI of Annex I is not carried by the harness (no copy of the Annex "
+                "text could be sourced): no verdict."]
+
+
+def _medium_table(d: EuInputs) -> str:
+    """Which Annex I requirement a medium power transformer up to 3150 kVA answers to."""
+    if d.phases != 3:
+        return "the Tier 2 requirements of Annex I for single-phase medium power transformers are"
+    table = {"liquid-immersed": "Table I.1 (liquid-immersed)", "dry-type": "Table I.2 (dry-type)"}.get(
+        d.insulation or "", "Table I.1 or I.2 (the nameplate lacks its insulation)")
+    low, high = EU_POLE_MOUNTED_KVA
+    pole = (" (or, pole-mounted, the pole-mounted table)"
+            if d.insulation == "liquid-immersed" and low <= d.rated_power_VA / 1e3 <= high else "")
+    return f"the Tier 2 maximum losses of Annex I {table}{pole} are"

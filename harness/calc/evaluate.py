@@ -185,7 +185,7 @@ def compliance_checks(record: Record, basis: Basis, nl: NoLoadResult | None,
     warnings: list[str] = []
     for rule in record.compliance or ():
         if rule == compliance.EU_ECODESIGN_TIER2:
-            found = compliance.eu_ecodesign_tier2()
+            found = compliance.eu_ecodesign_tier2(eu_inputs(record, basis, nl, ld))
         elif nl is None or ld is None:
             found = [], [f"{rule}: not evaluated: the record lacks the no-load or the load-loss test."]
         else:
@@ -193,6 +193,15 @@ def compliance_checks(record: Record, basis: Basis, nl: NoLoadResult | None,
         checks += found[0]
         warnings += found[1]
     return checks, warnings
+
+
+def eu_inputs(record: Record, basis: Basis, nl: NoLoadResult | None, ld: LoadResult | None) -> compliance.EuInputs:
+    """No-load loss as evaluated and load loss at rated current and the reference temperature."""
+    t = record.transformer
+    ref = ld.reference_temperature_C if ld is not None and ld.loss_ref_W is not None else None
+    return compliance.EuInputs(basis.rated_power_VA, basis.phases, t.frequency, t.insulation, t.highest_voltage,
+                               nl.loss_W if nl is not None else None,
+                               ld.performance_loss_W if ld is not None else None, ref)
 
 
 def doe_inputs(record: Record, basis: Basis, nl: NoLoadResult, ld: LoadResult) -> compliance.DoeInputs:

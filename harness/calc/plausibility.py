@@ -23,7 +23,7 @@ MEAN_TO_RMS_LIMITS = (0.7, 1.3)
 
 
 def transformer_problems(t: Any) -> list[Problem]:
-    return _connection_problems(t) + _ratio_problems(t)
+    return _connection_problems(t) + _ratio_problems(t) + _highest_voltage_problems(t)
 
 
 def _connection_problems(t: Any) -> list[Problem]:
@@ -56,6 +56,15 @@ def _ratio_problems(t: Any) -> list[Problem]:
     if t.lv.rated_voltage > t.hv.rated_voltage:
         return [(("lv", "rated_voltage"), f"the lv rated voltage ({t.lv.rated_voltage:g} V) is above the hv "
                  f"rated voltage ({t.hv.rated_voltage:g} V): hv and lv swapped?", t.lv.rated_voltage)]
+    return []
+
+
+def _highest_voltage_problems(t: Any) -> list[Problem]:
+    # Um is the highest system voltage the hv insulation is designed for, so never below the rated
+    # voltage (IEC 60076-1 definition of Um, recalled, not re-read).
+    if t.highest_voltage is not None and t.highest_voltage < t.hv.rated_voltage:
+        return [(("highest_voltage",), f"the highest voltage for equipment ({t.highest_voltage:g} V) is below the "
+                 f"hv rated voltage ({t.hv.rated_voltage:g} V)", t.highest_voltage)]
     return []
 
 

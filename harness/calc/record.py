@@ -75,6 +75,9 @@ class Transformer(_Model):
         None, description="what efficiency regulations class the unit by (compliance checks)")
     voltage_class: Literal["low-voltage", "medium-voltage"] | None = Field(
         None, description="dry-type units: the regulations' low- or medium-voltage class (compliance checks)")
+    highest_voltage: PositiveVoltage | None = Field(
+        None, description="highest voltage for equipment Um of the hv winding (rms, line-to-line); classes the "
+                          "unit for the EU ecodesign rule (Regulation 548/2014 Article 2)")
 
     @model_validator(mode="after")
     def _consistent(self) -> Transformer:

@@ -59,6 +59,8 @@ class ThreePhasePoint:
     terminal: PhaseWaves       # line terminal voltages about the source's star point
     current: PhaseWaves        # line currents into the fed terminals
     other_current: PhaseWaves  # line currents out of the other winding's terminals
+    other_terminal: PhaseWaves # the other winding's terminal voltages about their centroid
+    winding_current: PhaseWaves  # the fed winding's phase currents (a delta's differ from the line's)
     limb_emf: PhaseWaves       # per unit of rated flux
     winding_loss: float
     core_loss: float
@@ -66,7 +68,7 @@ class ThreePhasePoint:
     @staticmethod
     def zero(orders: tuple[int, ...]) -> "ThreePhasePoint":
         z = tuple(tuple(0j for _ in orders) for _ in PHASES)
-        return ThreePhasePoint(orders, z, z, z, z, 0.0, 0.0)  # type: ignore[arg-type]
+        return ThreePhasePoint(orders, z, z, z, z, z, z, 0.0, 0.0)  # type: ignore[arg-type]
 
     # The source's own view: each phase's voltage to its star point and its line current.
     @property
@@ -234,7 +236,9 @@ def _point(tf: ThreePhaseTransformer, wiring: Wiring, orders, x: list[np.ndarray
             for n, h in enumerate(orders):
                 r = tf.phase_impedance(side, theta, h, p, freq_pu).real
                 winding_loss += abs(x[n][first + p]) ** 2 * r
-    return ThreePhasePoint(orders, terminal, current, other_line,  # type: ignore[arg-type]
+    other_terminal = tuple(tuple(complex(xn[OTHER + p] - xn[OTHER:OTHER + 3].mean()) for xn in x) for p in PHASES)
+    return ThreePhasePoint(orders, terminal, current, other_line, other_terminal,  # type: ignore[arg-type]
+                           tuple(wave(I_FED + p) for p in PHASES),  # type: ignore[arg-type]
                            tuple(wave(E_LIMB + k) for k in PHASES), winding_loss, core_loss)  # type: ignore[arg-type]
 
 

@@ -15,7 +15,7 @@ import pytest
 from harness.common.errors import InputError
 from harness.sim import connections
 from harness.sim.analyser import elements
-from harness.sim.scenario import Scenario, load_scenario
+from harness.sim.scenario import SIM_CONFIGS, Scenario, load_scenario
 from harness.sim.three_phase import BayFaults, ThreePhaseTransformer, phase_emfs, solve
 from harness.sim.transformer import SourceImpedance, Wiring
 from harness.sim.truth import truth
@@ -275,7 +275,7 @@ def test_dead_source_phase_gives_nothing_on_that_phase():
 # ---------------------------------------------------------------- scenario checks with places
 
 def _scenario_file(tmp_path: Path, old: str, new: str) -> Path:
-    text = Path("sim_configs/three-phase.yaml").read_text(encoding="utf-8")
+    text = (SIM_CONFIGS / "three-phase.yaml").read_text(encoding="utf-8")
     assert old in text
     path = tmp_path / "bad.yaml"
     path.write_text(text.replace(old, new), encoding="utf-8")

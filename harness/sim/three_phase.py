@@ -158,24 +158,32 @@ def solve(tf: ThreePhaseTransformer, wiring: Wiring, emf: PhaseWaves, orders: tu
     if all(e == 0 for wave in emf for e in wave):
         return ThreePhasePoint.zero(orders)
     freq_pu = freq / tf.spec.frequency
+    # The network is fixed for this solve; only the limb shunts change between passes, so the
+    # matrices are stamped once and every pass solves all orders in one batched call.
+    fixed = np.array([_network(tf, wiring, h, freq_pu, theta, zs, faults) for h in orders])
+    b = np.zeros((len(orders), UNKNOWNS), complex)
+    b[:, I_SOURCE:I_SOURCE + 3] = np.array(emf, complex).T
     shunts = [tf.rated_shunt(k) for k in PHASES]
     for _ in range(SHUNT_PASSES + 1):
-        x = _solve_orders(tf, wiring, emf, orders, freq_pu, theta, zs, faults, shunts)
-        limb = [tuple(x[n][E_LIMB + k] for n in range(len(orders))) for k in PHASES]
-        shunts = [tf.limb_shunt(limb[k], orders, freq_pu, k) for k in PHASES]
-    x = _solve_orders(tf, wiring, emf, orders, freq_pu, theta, zs, faults, shunts)
-    return _point(tf, wiring, orders, x, theta, freq_pu, sum(s[2] for s in shunts))
+        x = _solve_with_shunts(fixed, b, orders, shunts)
+        shunts = [tf.limb_shunt(tuple(complex(v) for v in x[:, E_LIMB + k]), orders, freq_pu, k) for k in PHASES]
+    x = _solve_with_shunts(fixed, b, orders, shunts)
+    return _point(tf, wiring, orders, list(x), theta, freq_pu, sum(s[2] for s in shunts))
 
 
-def _solve_orders(tf, wiring, emf, orders, freq_pu, theta, zs, faults, shunts) -> list[np.ndarray]:
-    return [_solve_order(tf, wiring, [emf[p][n] for p in PHASES], h, freq_pu, theta, zs, faults, shunts)
-            for n, h in enumerate(orders)]
+def _solve_with_shunts(fixed: np.ndarray, b: np.ndarray, orders: tuple[int, ...], shunts) -> np.ndarray:
+    a = fixed.copy()
+    for n, h in enumerate(orders):
+        for k in PHASES:
+            g, bm, _ = shunts[k]
+            a[n, E_LIMB + k, E_LIMB + k] -= complex(g, -bm / h)
+    return np.linalg.solve(a, b[..., None])[..., 0]
 
 
-def _solve_order(tf: ThreePhaseTransformer, wiring: Wiring, emf: list[complex], h: int, freq_pu: float,
-                 theta: float, zs: SourceImpedance, faults: BayFaults, shunts) -> np.ndarray:
+def _network(tf: ThreePhaseTransformer, wiring: Wiring, h: int, freq_pu: float, theta: float,
+             zs: SourceImpedance, faults: BayFaults) -> np.ndarray:
+    """The nodal matrix of order ``h`` without the limbs' own shunts."""
     a = np.zeros((UNKNOWNS, UNKNOWNS), complex)
-    b = np.zeros(UNKNOWNS, complex)
     a[range(NODES), range(NODES)] = EARTH_LEAK
     z_source = zs.at(h, freq_pu)
     for p in PHASES:  # source phase p: from its star point to fed terminal p
@@ -183,7 +191,6 @@ def _solve_order(tf: ThreePhaseTransformer, wiring: Wiring, emf: list[complex], 
         a[SOURCE_N, row] += 1.0
         a[FED + p, row] -= 1.0
         a[row, FED + p], a[row, SOURCE_N], a[row, row] = 1.0, -1.0, z_source
-        b[row] = emf[p]
     fed, other = wiring.fed, other_side(wiring.fed)
     for side, node0, neutral, first in ((fed, FED, FED_N, I_FED), (other, OTHER, OTHER_N, I_OTHER)):
         arr, n = tf.arrangement[side], tf.turns[side]
@@ -199,18 +206,15 @@ def _solve_order(tf: ThreePhaseTransformer, wiring: Wiring, emf: list[complex], 
                 if c:
                     a[i_row, E_LIMB + k] -= n * c
                     a[E_LIMB + k, i_row] += n * c
-    for k in PHASES:
-        g, bm, _ = shunts[k]
-        y = complex(g, -bm / h)
-        if faults.shorted_limb == k:
-            y += fault_at(faults.shorted_admittance_pu * tf.spec.rated_power / 3.0, h, freq_pu)
-        a[E_LIMB + k, E_LIMB + k] -= y
+    if faults.shorted_limb is not None:
+        k = faults.shorted_limb
+        a[E_LIMB + k, E_LIMB + k] -= fault_at(faults.shorted_admittance_pu * tf.spec.rated_power / 3.0, h, freq_pu)
     if wiring.other == "short":
         g_link = 1.0 / tf.spec.link_resistance
         for p in PHASES:
             if p != faults.open_link_phase:
                 _conductance(a, OTHER + p, LINK, g_link)
-    return np.linalg.solve(a, b)
+    return a
 
 
 def _conductance(a: np.ndarray, i: int, j: int, g: float) -> None:

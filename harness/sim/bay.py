@@ -16,6 +16,7 @@ from typing import Iterable
 import numpy as np
 
 from harness.common.clock import Clock
+from harness.common.errors import UsageError
 from harness.sim.analyser import Analyser, ChannelValues
 from harness.sim.faults import THREE_PHASE_ONLY, FaultSpec, FaultState, fault_spec
 from harness.sim.meters import ResistanceMeter, Thermometer
@@ -77,8 +78,8 @@ class Bay:
         if not self.three_phase:
             for spec in specs:
                 if spec.name in THREE_PHASE_ONLY:
-                    raise ValueError(f"fault '{spec.name}' needs a three-phase unit; "
-                                     f"'{self.scenario.name}' is single-phase")
+                    raise UsageError(f"fault '{spec.name}' needs a three-phase unit; "
+                                     f"scenario '{self.scenario.name}' is single-phase")
         return {s.name: FaultState(s) for s in specs}
 
     # ------------------------------------------------------------------ faults

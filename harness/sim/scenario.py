@@ -19,7 +19,7 @@ from harness.common.units import (
 )
 from harness.common.yamlio import load_model
 from harness.sim import connections
-from harness.sim.faults import FaultSpec
+from harness.sim.faults import THREE_PHASE_ONLY, FaultSpec
 
 SPEC_VERSION = 1
 SIM_CONFIGS = Path(__file__).resolve().parents[2] / "sim_configs"
@@ -330,6 +330,10 @@ class Scenario(_Frozen):
             raise ValueError("resistance_meter.channels: a single-phase unit has one channel per winding")
         if self.transformer.phases == 3 and self.analyser.channels < 3:
             raise ValueError("analyser.channels: a three-phase unit needs three channels")
+        if self.transformer.phases == 1:
+            for fault in self.faults:
+                if fault.name in THREE_PHASE_ONLY or fault.phase != 1:
+                    raise ValueError(f"faults: '{fault.name}' on one phase needs a three-phase unit")
         return self
 
     def with_faults(self, faults: tuple[FaultSpec, ...]) -> "Scenario":

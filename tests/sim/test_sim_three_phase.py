@@ -294,3 +294,11 @@ def test_bad_three_phase_scenarios_are_refused_with_their_place(tmp_path, old, n
     with pytest.raises(InputError, match=message) as err:
         load_scenario(_scenario_file(tmp_path, old, new))
     assert "bad.yaml:" in str(err.value) and str(err.value).split(":")[1].isdigit()
+
+
+def test_a_phase_fault_in_a_single_phase_scenario_is_refused_with_its_place(tmp_path):
+    text = (SIM_CONFIGS / "default.yaml").read_text(encoding="utf-8")
+    path = tmp_path / "bad.yaml"
+    path.write_text(text + "faults:\n  - {name: dead-source-phase}\n", encoding="utf-8")
+    with pytest.raises(InputError, match="needs a three-phase unit"):
+        load_scenario(path)

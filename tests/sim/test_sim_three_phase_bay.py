@@ -12,6 +12,7 @@ import math
 import pytest
 
 from harness.common.clock import Clock
+from harness.common.errors import UsageError
 from harness.sim.bay import Bay
 from harness.sim.devices import resistance_meter_device, source_device
 from harness.sim.faults import FaultSpec
@@ -95,7 +96,7 @@ def test_stuck_output_keeps_a_three_phase_bay_live():
 
 @pytest.mark.parametrize("fault", ["open-link-phase", "dead-source-phase"])
 def test_three_phase_faults_are_refused_on_a_single_phase_unit(fault):
-    with pytest.raises(ValueError, match="needs a three-phase unit"):
+    with pytest.raises(UsageError, match="needs a three-phase unit"):
         Bay(load_scenario("default"), Clock(1000.0), [fault])
 
 

@@ -112,3 +112,20 @@ def test_the_resistance_meter_reads_line_to_line_pairs():
     bay.source_command("voltage", 10.0)
     bay.source_command("output", True)
     assert math.isnan(float(meter.handle("MEAS:FRES? (@4)"))) or float(meter.handle("MEAS:FRES? (@4)")) > 1e37
+
+
+def test_the_two_wattmeter_analyser_reads_one_element_negative_at_no_load():
+    # No-load power factor of about 0.15: below 0.5 one element of the two-wattmeter connection
+    # reads negative and the two sum to the total (common knowledge of the two-wattmeter method).
+    scenario = THREE_PHASE.model_copy(update={"analyser": THREE_PHASE.analyser.model_copy(
+        update={"connection": "two-wattmeter"})})
+    bay = Bay(scenario, Clock(2000.0))
+    bay.source_command("voltage", SETPOINT)
+    bay.source_command("output", True)
+    bay.clock.sleep(SETPOINT / bay.source.slew + 3.0)
+    channels = bay.analyser_snapshot()
+    total = bay.operating_point().power
+    assert min(channels[0].p, channels[1].p) < 0 < max(channels[0].p, channels[1].p)
+    assert channels[0].p + channels[1].p == pytest.approx(total, rel=0.02)
+    assert abs(channels[2].p) < 0.01 * total          # offset and noise only
+    assert all(ch.u_rms == pytest.approx(420.0, rel=0.01) for ch in channels)

@@ -22,6 +22,7 @@ from __future__ import annotations
 import cmath
 import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -58,7 +59,6 @@ class ThreePhasePoint:
     orders: tuple[int, ...]
     terminal: PhaseWaves       # line terminal voltages about the source's star point
     current: PhaseWaves        # line currents into the fed terminals
-    other_current: PhaseWaves  # line currents out of the other winding's terminals
     other_terminal: PhaseWaves # the other winding's terminal voltages about their centroid
     winding_current: PhaseWaves  # the fed winding's phase currents (a delta's differ from the line's)
     limb_emf: PhaseWaves       # per unit of rated flux
@@ -68,14 +68,14 @@ class ThreePhasePoint:
     @staticmethod
     def zero(orders: tuple[int, ...]) -> "ThreePhasePoint":
         z = tuple(tuple(0j for _ in orders) for _ in PHASES)
-        return ThreePhasePoint(orders, z, z, z, z, z, z, 0.0, 0.0)  # type: ignore[arg-type]
+        return ThreePhasePoint(orders, z, z, z, z, z, 0.0, 0.0)  # type: ignore[arg-type]
 
     # The source's own view: each phase's voltage to its star point and its line current.
-    @property
+    @cached_property
     def phase_voltages(self) -> tuple[float, float, float]:
         return tuple(waveform.rms(v) for v in self.terminal)  # type: ignore[return-value]
 
-    @property
+    @cached_property
     def phase_currents(self) -> tuple[float, float, float]:
         return tuple(waveform.rms(i) for i in self.current)  # type: ignore[return-value]
 
@@ -231,9 +231,6 @@ def _point(tf: ThreePhaseTransformer, wiring: Wiring, orders, x: list[np.ndarray
 
     terminal = tuple(tuple(complex(xn[FED + p] - xn[SOURCE_N]) for xn in x) for p in PHASES)
     current = tuple(wave(I_SOURCE + p) for p in PHASES)
-    other_line = tuple(tuple(-complex(v) for v in _line_currents(tf.arrangement[other_side(wiring.fed)],
-                                                                   [xn[I_OTHER:I_OTHER + 3] for xn in x], p))
-                       for p in PHASES)
     winding_loss = 0.0
     for side, first in ((wiring.fed, I_FED), (other_side(wiring.fed), I_OTHER)):
         for p in PHASES:
@@ -241,19 +238,6 @@ def _point(tf: ThreePhaseTransformer, wiring: Wiring, orders, x: list[np.ndarray
                 r = tf.phase_impedance(side, theta, h, p, freq_pu).real
                 winding_loss += abs(x[n][first + p]) ** 2 * r
     other_terminal = tuple(tuple(complex(xn[OTHER + p] - xn[OTHER:OTHER + 3].mean()) for xn in x) for p in PHASES)
-    return ThreePhasePoint(orders, terminal, current, other_line, other_terminal,  # type: ignore[arg-type]
+    return ThreePhasePoint(orders, terminal, current, other_terminal,  # type: ignore[arg-type]
                            tuple(wave(I_FED + p) for p in PHASES),  # type: ignore[arg-type]
                            tuple(wave(E_LIMB + k) for k in PHASES), winding_loss, core_loss)  # type: ignore[arg-type]
-
-
-def _line_currents(arr: Arrangement, phase_currents: list[np.ndarray], terminal: int) -> list[complex]:
-    """Current into ``terminal`` per order: the sum of the phase currents starting or ending there."""
-    out = []
-    for i in phase_currents:
-        total = 0j
-        for p in PHASES:
-            start, end = arr.ends(p)
-            total += i[p] if start == terminal else 0j
-            total -= i[p] if end == terminal else 0j
-        out.append(total)
-    return out

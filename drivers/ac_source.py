@@ -2,12 +2,19 @@
 
 Setpoints are checked for sense here (finite, not negative); the bay's limits are the safety
 layer's job, before anything reaches this class.
+
+A three-phase source (``phases: 3`` in its profile) is one source with three phases: the
+voltage setpoint is the line-to-neutral rms voltage of all three (balanced, positive sequence);
+``measured_voltage``/``measured_current`` give the largest phase, ``measured_voltages``/
+``measured_currents`` each phase.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
+from drivers.errors import ProtocolError
+from drivers.numbers import check_reading, parse_number
 from drivers.profile import AcSourceProfile, Profile
 from drivers.scpi import ScpiInstrument, require_finite
 from drivers.transport import Transport
@@ -21,6 +28,7 @@ class AcSource(ScpiInstrument):
         super().__init__(transport, name, profile)
         p = self.profile
         self._on, self._off = p.words.enabled, p.words.disabled
+        self.phases: int = p.phases
 
     def _word(self, on: bool) -> str:
         return self._on if on else self._off
@@ -93,6 +101,30 @@ class AcSource(ScpiInstrument):
     def measured_current(self) -> float | None:
         command = self._cmd["measured_current"]
         return None if command is None else self._query_number(command, "output current")
+
+    def measured_voltages(self) -> tuple[float, ...] | None:
+        """Each phase's line-to-neutral rms voltage (a three-phase source), None without."""
+        return self._per_phase("measured_voltages", "output voltage")
+
+    def measured_currents(self) -> tuple[float, ...] | None:
+        """Each phase's line current, None without per-phase readback."""
+        return self._per_phase("measured_currents", "output current")
+
+    def _per_phase(self, operation: str, quantity: str) -> tuple[float, ...] | None:
+        command = self._cmd[operation]
+        if command is None:
+            return None
+        reply = self._query(command)
+        tokens = reply.split(",")
+        if len(tokens) != self.phases:
+            raise ProtocolError(f"expected {self.phases} comma-separated values for the {quantity} per phase, "
+                                f"got '{reply}'", self.name, command)
+        try:
+            values = tuple(parse_number(t) for t in tokens)
+        except ValueError as exc:
+            raise ProtocolError(f"{quantity} per phase unreadable: {exc}", self.name, command) from None
+        return tuple(check_reading(v, f"{quantity} of phase {k}", self.name, command)
+                     for k, v in enumerate(values, start=1))
 
     # --- communication watchdog
 

@@ -127,6 +127,7 @@ class AcSourceCommands(_Commands):
         "set_current_protection_state": (_S, False), "protection_tripped": (_Q, True),
         "set_slew": (_N, False), "slew": (_Q, True),
         "measured_voltage": (_Q, True), "measured_current": (_Q, True),
+        "measured_voltages": (_Q, True), "measured_currents": (_Q, True),
         "set_watchdog_timeout": (_N, False), "set_watchdog_state": (_S, False),
     }
     set_voltage: str
@@ -143,6 +144,8 @@ class AcSourceCommands(_Commands):
     slew: str | None = None
     measured_voltage: str | None = None
     measured_current: str | None = None
+    measured_voltages: str | None = None   # per phase of a three-phase source, comma-separated
+    measured_currents: str | None = None
     set_watchdog_timeout: str | None = None
     set_watchdog_state: str | None = None
 
@@ -318,8 +321,16 @@ class Profile(_Strict):
 
 class AcSourceProfile(Profile):
     kind: Literal["ac_source"]
+    phases: Literal[1, 3] = 1
     commands: AcSourceCommands
     words: SourceWords = SourceWords()
+
+    @model_validator(mode="after")
+    def _per_phase_readback(self) -> AcSourceProfile:
+        per_phase = (self.commands.measured_voltages, self.commands.measured_currents)
+        if self.phases == 1 and any(per_phase):
+            raise ValueError("measured_voltages/measured_currents are for a three-phase source (phases: 3)")
+        return self
 
 
 class PowerAnalyserProfile(Profile):

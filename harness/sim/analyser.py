@@ -4,6 +4,17 @@ Each quantity's error is a fixed calibration error drawn once within the accurac
 so a scenario always gives the same instrument) plus Gaussian noise drawn once per update.
 Readings change only at update instants (every ``update_interval`` bay seconds); between them a
 query returns the values of the last update, as an averaging instrument does.
+
+What each channel's measuring element sees (``elements``): on a single-phase unit channel 1
+sees the fed winding and the others nothing. On a three-phase unit the three channels sit on the
+fed winding's line terminals. Three-wattmeter connection (the default): element k takes line
+current k and the voltage of terminal k to the analyser's artificial star point (the centroid
+of the three terminal voltages), so P1 + P2 + P3 is the total power of a three-wire circuit;
+channel k reports the line-to-line voltage U12, U23, U31, as the analyser computes it from its
+sampled phase voltages. Two-wattmeter connection: element 1 takes U13 and I1, element 2 U23 and
+I2 (their sum is the total power, and one reads negative below a power factor of 0.5 on a
+balanced load, common knowledge of the two-wattmeter method); channel 3 reports U12, the
+magnitude of I3 = -(I1 + I2) and no power.
 """
 
 from __future__ import annotations
@@ -14,6 +25,8 @@ import numpy as np
 
 from harness.sim.scenario import AnalyserSpec, ErrorSpec
 from harness.sim.scpi_tree import OVERLOAD, ScpiError
+from harness.sim import waveform
+from harness.sim.three_phase import ThreePhasePoint
 from harness.sim.transformer import OperatingPoint
 
 QUANTITIES = ("voltage", "current", "power")
@@ -26,6 +39,42 @@ class ChannelValues:
     i_rms: float
     p: float
     freq: float
+
+
+@dataclass(frozen=True)
+class Element:
+    """True values at one channel's inputs, ahead of any instrument transformer."""
+
+    u_rms: float
+    u_mean: float
+    i_rms: float
+    p: float
+
+
+def elements(op: OperatingPoint | ThreePhasePoint, connection: str, channels: int) -> tuple[Element | None, ...]:
+    """What each channel's element sees for the operating point ``op`` (None: not connected)."""
+    if isinstance(op, ThreePhasePoint):
+        seen = _two_wattmeter(op) if connection == "two-wattmeter" else _three_wattmeter(op)
+    else:
+        seen = (Element(op.u_rms, op.u_mean, op.i_rms, op.power),)
+    return seen + (None,) * (channels - len(seen))
+
+
+def _element(op: ThreePhasePoint, u_shown: tuple[complex, ...], u_element: tuple[complex, ...],
+             i: tuple[complex, ...], metered: bool = True) -> Element:
+    p = sum((u * c.conjugate()).real for u, c in zip(u_element, i)) if metered else 0.0
+    return Element(waveform.rms(u_shown), waveform.mean_rectified_scaled(op.orders, u_shown), waveform.rms(i), p)
+
+
+def _three_wattmeter(op: ThreePhasePoint) -> tuple[Element, ...]:
+    return tuple(_element(op, op.line_to_line(k, (k + 1) % 3), op.to_centroid(k), op.current[k]) for k in range(3))
+
+
+def _two_wattmeter(op: ThreePhasePoint) -> tuple[Element, ...]:
+    i3 = tuple(-(a + b) for a, b in zip(op.current[0], op.current[1]))
+    return (_element(op, op.line_to_line(0, 2), op.line_to_line(0, 2), op.current[0]),
+            _element(op, op.line_to_line(1, 2), op.line_to_line(1, 2), op.current[1]),
+            _element(op, op.line_to_line(0, 1), op.line_to_line(0, 1), i3, metered=False))
 
 
 @dataclass(frozen=True)
@@ -73,17 +122,17 @@ class Analyser:
         return int(now // self.update_interval)
 
     # -- readings
-    def snapshot(self, index: int, op: OperatingPoint, freq: float) -> tuple[ChannelValues, ...]:
-        """Channel 1 sees the fed winding; the others are not connected (offset and noise only)."""
+    def snapshot(self, index: int, op: OperatingPoint | ThreePhasePoint, freq: float) -> tuple[ChannelValues, ...]:
+        """Each channel from its element (``elements``); one not connected reads offset and noise."""
         if self._cache is None or self._cache[0] != index:
-            values = tuple(self._channel(ch, op if ch == 1 else None, freq)
-                           for ch in range(1, self.spec.channels + 1))
+            seen = elements(op, self.spec.connection, self.spec.channels)
+            values = tuple(self._channel(ch, seen[ch - 1], freq) for ch in range(1, self.spec.channels + 1))
             self._cache = (index, values)
         return self._cache[1]
 
-    def _channel(self, ch: int, op: OperatingPoint | None, freq: float) -> ChannelValues:
+    def _channel(self, ch: int, op: Element | None, freq: float) -> ChannelValues:
         vt, ct = self.spec.vt_ratio, self.spec.ct_ratio  # the analyser sees the secondaries
-        u, um, i, p = (op.u_rms / vt, op.u_mean / vt, op.i_rms / ct, op.power / (vt * ct)) if op else (0.0, 0.0, 0.0, 0.0)
+        u, um, i, p = (op.u_rms / vt, op.u_mean / vt, op.i_rms / ct, op.p / (vt * ct)) if op else (0.0, 0.0, 0.0, 0.0)
         ranges = {"voltage": self.voltage_range, "current": self.current_range,
                   "power": self.voltage_range * self.current_range}
         read = {q: (lambda true, q=q: self._read(q, ch, true, ranges[q])) for q in QUANTITIES}

@@ -16,15 +16,20 @@ from typing import Iterable
 import numpy as np
 
 from harness.common.clock import Clock
+from harness.common.errors import UsageError
 from harness.sim.analyser import Analyser, ChannelValues
-from harness.sim.faults import FaultSpec, FaultState, fault_spec
+from harness.sim.faults import THREE_PHASE_ONLY, FaultSpec, FaultState, fault_spec
 from harness.sim.meters import ResistanceMeter, Thermometer
 from harness.sim.scenario import Scenario
 from harness.sim.scpi_tree import OVERLOAD
 from harness.sim.source import Source, step
+from harness.sim import three_phase
+from harness.sim.three_phase import BayFaults, ThreePhasePoint, ThreePhaseTransformer
 from harness.sim.transformer import (
     FirstOrder, OperatingPoint, SourceImpedance, Transformer, Wiring, solve,
 )
+
+Point = OperatingPoint | ThreePhasePoint
 
 MAX_STEP = 2.0                 # bay seconds per thermal step
 SHORTED_TURN_MULTIPLE = 10.0   # no-load current with a shorted turn, times the healthy one
@@ -45,7 +50,8 @@ class Bay:
         seeds = np.random.SeedSequence(scenario.seed).spawn(4)
         rngs = [np.random.default_rng(s) for s in seeds]
         spec = scenario.transformer
-        self.transformer = Transformer(spec)
+        self.three_phase = spec.phases == 3
+        self.transformer = ThreePhaseTransformer(spec) if self.three_phase else Transformer(spec)
         self.source = Source(scenario.source, spec.frequency)
         self.source_impedance = SourceImpedance(scenario.source.output_resistance, scenario.source.output_reactance)
         self.analyser = Analyser(scenario.analyser, rngs[0])
@@ -64,12 +70,16 @@ class Bay:
         self.analyser_queries = 0
         self.last_source_command = self.t
         self._op_key: tuple | None = None
-        self._op = OperatingPoint.zero(self.source.orders)
-        self._analyser_op: tuple[int, OperatingPoint, float] = (-1, self._op, 0.0)
+        self._op: Point = (ThreePhasePoint if self.three_phase else OperatingPoint).zero(self.source.orders)
+        self._analyser_op: tuple[int, Point, float] = (-1, self._op, 0.0)
         self._update_faults()
 
-    @staticmethod
-    def _fault_states(specs: list[FaultSpec]) -> dict[str, FaultState]:
+    def _fault_states(self, specs: list[FaultSpec]) -> dict[str, FaultState]:
+        if not self.three_phase:
+            for spec in specs:
+                if spec.name in THREE_PHASE_ONLY:
+                    raise UsageError(f"fault '{spec.name}' needs a three-phase unit; "
+                                     f"scenario '{self.scenario.name}' is single-phase")
         return {s.name: FaultState(s) for s in specs}
 
     # ------------------------------------------------------------------ faults
@@ -132,14 +142,14 @@ class Bay:
         self.t += dt
         self._update_faults()
 
-    def _heat(self, dt: float, before: OperatingPoint, after: OperatingPoint) -> None:
+    def _heat(self, dt: float, before: Point, after: Point) -> None:
         ambient = self.scenario.bay.ambient_temperature
         winding_loss = 0.5 * (before.winding_loss + after.winding_loss)
         total = winding_loss + 0.5 * (before.core_loss + after.core_loss)
         self.winding.step(dt, winding_loss, ambient)
         self.oil.step(dt, total, ambient)
 
-    def _protection_trips(self, op: OperatingPoint) -> bool:
+    def _protection_trips(self, op: Point) -> bool:
         if self.fault_active("stuck-output") or not self.source.output_on:
             return False
         return op.i_rms > self._current_limit()
@@ -184,16 +194,29 @@ class Bay:
         i0 = math.hypot(spec.core.magnetising_current / 100.0, spec.core.loss / spec.rated_power)
         return SHORTED_TURN_MULTIPLE * i0 * complex(math.cos(SHORTED_TURN_ANGLE), math.sin(SHORTED_TURN_ANGLE))
 
-    def _solve(self, level: float) -> OperatingPoint:
+    def _phase_faults(self) -> BayFaults:
+        """The active faults that act on one phase of a three-phase unit."""
+        def phase(name: str) -> int | None:
+            return self.faults[name].spec.phase - 1 if self.fault_active(name) else None
+        shorted = phase("shorted-turn")
+        return BayFaults(shorted, self._fault_admittance() if shorted is not None else 0j,
+                         phase("open-link-phase"), phase("dead-source-phase"))
+
+    def _solve(self, level: float) -> Point:
+        if isinstance(self.transformer, ThreePhaseTransformer):
+            faults = self._phase_faults()
+            emf = three_phase.phase_emfs(self.source.emf(level), self.source.orders, faults.dead_source_phase)
+            return three_phase.solve(self.transformer, self.effective_wiring(), emf, self.source.orders,
+                                     self.source.frequency, self.winding.temperature, self.source_impedance, faults)
         return solve(self.transformer, self.effective_wiring(), self.source.emf(level), self.source.orders,
                      self.source.frequency, self.winding.temperature, self.source_impedance,
                      self._fault_admittance())
 
-    def operating_point(self) -> OperatingPoint:
+    def operating_point(self) -> Point:
         """The steady state now (cached while nothing that matters has changed)."""
         level = self.source.output
         key = (level, self.source.frequency, self.effective_wiring(), round(self.winding.temperature, 3),
-               self._fault_admittance())
+               self._fault_admittance(), self._phase_faults() if self.three_phase else None)
         if key != self._op_key:
             self._op, self._op_key = self._solve(level), key
         return self._op
@@ -234,17 +257,35 @@ class Bay:
             noise = self._readback_rng.normal(0.0, sigma, 2) if sigma else (0.0, 0.0)
             return op.u_rms * (1 + float(noise[0])), op.i_rms * (1 + float(noise[1]))
 
+    def source_phase_readback(self) -> tuple[tuple[float, ...], tuple[float, ...]]:
+        """Each phase's rms voltage (to the source's star point) and line current, with noise;
+        one phase of each on a single-phase bay."""
+        with self.lock:
+            self.advance()
+            op = self.operating_point()
+            volts, amps = ((op.phase_voltages, op.phase_currents) if isinstance(op, ThreePhasePoint)
+                           else ((op.u_rms,), (op.i_rms,)))
+            sigma = self.source.spec.readback_noise / 100.0
+            noise = self._readback_rng.normal(0.0, sigma, 2 * len(volts)) if sigma else [0.0] * (2 * len(volts))
+            n = len(volts)
+            return (tuple(v * (1 + float(e)) for v, e in zip(volts, noise[:n])),
+                    tuple(i * (1 + float(e)) for i, e in zip(amps, noise[n:])))
+
     def is_live(self) -> bool:
         with self.lock:
             self.advance()
             return self.source.output_on or self.operating_point().u_rms > LIVE_VOLTAGE
 
-    def winding_resistance(self, side: str) -> float:
-        """The meter's reading of the d.c. resistance of ``side`` at the present temperature."""
+    def winding_resistance(self, side: str, pair: int | None = None) -> float:
+        """The meter's reading of the d.c. resistance of ``side`` at the present temperature;
+        on a three-phase unit between the line terminals of ``pair`` (0: U-V, 1: V-W, 2: W-U)."""
         with self.lock:
             if self.is_live():
                 raise BayConflict("the unit is energised; switch the output off to measure resistance")
-            true = self.transformer.r_dc(side, self.winding.temperature)
+            if isinstance(self.transformer, ThreePhaseTransformer):
+                true = self.transformer.line_resistances(side, self.winding.temperature)[pair or 0]
+            else:
+                true = self.transformer.r_dc(side, self.winding.temperature)
             return self.resistance_meter.measure(side, true)
 
     def temperature(self, point: str) -> float:

@@ -11,7 +11,7 @@ from typing import Callable
 
 from harness.sim.bay import Bay, BayConflict
 from harness.sim.scpi_tree import (
-    CommandTree, ScpiError, format_number, no_params, one_param, parse_bool, parse_channels,
+    OVERLOAD, CommandTree, ScpiError, format_number, no_params, one_param, parse_bool, parse_channels,
     parse_choice, parse_number,
 )
 
@@ -88,14 +88,24 @@ def source_device(bay: Bay) -> Device:
     tree.add("[SOURce:]CURRent:PROTection:TRIPped", getter=lambda p: no_params(p) or _tripped(bay))
     tree.add("[SOURce:]CURRent:PROTection:CLEar", lambda p: no_params(p) or bay.configure_source(tripped=False))
     tree.add("OUTPut:PROTection:CLEar", lambda p: no_params(p) or bay.configure_source(tripped=False))
-    tree.add("MEASure[:SCALar]:VOLTage[:AC]", getter=lambda p: no_params(p) or format_number(bay.source_readback()[0]))
-    tree.add("MEASure[:SCALar]:CURRent[:AC]", getter=lambda p: no_params(p) or format_number(bay.source_readback()[1]))
+    tree.add("MEASure[:SCALar]:VOLTage[:AC]", getter=lambda p: _readback(bay, p, 0))
+    tree.add("MEASure[:SCALar]:CURRent[:AC]", getter=lambda p: _readback(bay, p, 1))
     tree.add("SYSTem:WATChdog:TIMeout",
              lambda p: bay.configure_source(watchdog_timeout=bounded(p, "S", 0.1, 3600.0, 10.0)),
              lambda p: no_params(p) or format_number(src.watchdog_timeout))
     tree.add("SYSTem:WATChdog[:STATe]", lambda p: bay.configure_source(watchdog_on=parse_bool(one_param(p))),
              lambda p: no_params(p) or _flag(src.watchdog_on))
     return Device("source", tree, before=lambda: bay.source_command("touch"))
+
+
+def _readback(bay: Bay, params: list[str], which: int) -> str:
+    """No parameter: the single value (on a three-phase source the largest phase). A channel
+    list ``(@1:3)``: the phases named, line-to-neutral volts or line amps (SCPI-1999 channel list)."""
+    if not params:
+        return format_number(bay.source_readback()[which])
+    per_phase = bay.source_phase_readback()[which]
+    phases = parse_channels(one_param(params), range(1, len(per_phase) + 1))
+    return ",".join(format_number(per_phase[k - 1]) for k in phases)
 
 
 def _tripped(bay: Bay) -> str:
@@ -110,6 +120,7 @@ class _AnalyserFace:
 
     FIELDS = {"u_rms": "VOLTage[:AC]", "u_mean": "VOLTage:MEAN", "i_rms": "CURRent[:AC]",
               "p": "POWer[:AC]", "freq": "FREQuency"}
+    ARRAY_FIELDS = ("p", "u_rms", "u_mean", "i_rms", "freq")
 
     def __init__(self, bay: Bay):
         self.bay = bay
@@ -119,11 +130,15 @@ class _AnalyserFace:
         for name, node in self.FIELDS.items():
             for verb in ("MEASure[:SCALar]", "FETCh[:SCALar]", "READ[:SCALar]"):
                 self.tree.add(f"{verb}:{node}", getter=lambda p, n=name: self._values(n, p))
+        # The compact dialect (drivers/profiles/compact-power-analyser.yaml): one array query,
+        # channel after channel, each p,u,umean,i,f and a status word (0: no overload).
+        self.tree.add("FETCh:ARRay", getter=self._array)
         an = bay.analyser
-        self.tree.add("SENSe:VOLTage[:AC]:RANGe[:UPPer]", lambda p: self._set(an.set_voltage_range, p, "V"),
-                      lambda p: no_params(p) or format_number(an.voltage_range))
-        self.tree.add("SENSe:CURRent[:AC]:RANGe[:UPPer]", lambda p: self._set(an.set_current_range, p, "A"),
-                      lambda p: no_params(p) or format_number(an.current_range))
+        for root in ("SENSe", "INPut"):
+            self.tree.add(f"{root}:VOLTage[:AC]:RANGe[:UPPer]", lambda p: self._set(an.set_voltage_range, p, "V"),
+                          lambda p: no_params(p) or format_number(an.voltage_range))
+            self.tree.add(f"{root}:CURRent[:AC]:RANGe[:UPPer]", lambda p: self._set(an.set_current_range, p, "A"),
+                          lambda p: no_params(p) or format_number(an.current_range))
         self.tree.add("SENSe:AVERage:TIME", lambda p: self._set(an.set_update_interval, p, "S"),
                       lambda p: no_params(p) or format_number(an.update_interval))
 
@@ -142,6 +157,14 @@ class _AnalyserFace:
             self.memo = self.bay.analyser_snapshot()
         return ",".join(format_number(getattr(self.memo[ch - 1], name)) for ch in channels)
 
+    def _array(self, params: list[str]) -> str:
+        channels = self._channels(params)
+        if self.memo is None:
+            self.memo = self.bay.analyser_snapshot()
+        return ";".join(",".join(format_number(getattr(self.memo[ch - 1], name))
+                                 for name in self.ARRAY_FIELDS) + "," + _status(self.memo[ch - 1])
+                        for ch in channels)
+
     def _channels(self, params: list[str]) -> list[int]:
         if not params:
             return [1]
@@ -149,6 +172,11 @@ class _AnalyserFace:
 
     def begin_message(self) -> None:
         self.memo = None
+
+
+def _status(values: object) -> str:
+    over = any(abs(getattr(values, name)) >= OVERLOAD for name in _AnalyserFace.ARRAY_FIELDS)
+    return "1" if over else "0"
 
 
 def analyser_device(bay: Bay) -> Device:
@@ -164,21 +192,21 @@ def resistance_meter_device(bay: Bay) -> Device:
     _system(tree)
 
     def measure(p: list[str]) -> str:
-        channels = parse_channels(one_param(p), range(1, 100)) if p else [meter.spec.channels["hv"]]
-        sides = [meter.side(ch) for ch in channels]
-        if None in sides:
+        channels = parse_channels(one_param(p), range(1, 100)) if p else [meter.default_channel("hv")]
+        terminals = [meter.terminals(ch) for ch in channels]
+        if any(side is None for side, _ in terminals):
             raise ScpiError(-222, "no winding on that channel")
-        return ",".join(_resistance(tree, bay, side) for side in sides)
+        return ",".join(_resistance(tree, bay, side, pair) for side, pair in terminals)
 
     tree.add("MEASure[:SCALar]:FRESistance", getter=measure)
     tree.add("SENSe:FRESistance:CURRent", getter=lambda p: no_params(p) or format_number(meter.test_current()))
     return Device("resistance_meter", tree)
 
 
-def _resistance(tree: CommandTree, bay: Bay, side: str) -> str:
+def _resistance(tree: CommandTree, bay: Bay, side: str, pair: int | None) -> str:
     """A live winding cannot be measured: the meter answers not-a-number and queues -221."""
     try:
-        return format_number(bay.winding_resistance(side))
+        return format_number(bay.winding_resistance(side, pair))
     except BayConflict as exc:
         tree.status.push(ScpiError(-221, str(exc)))
         return format_number(math.nan)

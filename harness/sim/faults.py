@@ -20,7 +20,9 @@ MAX_QUERIES = 1_000_000
 
 FAULTS: dict[str, str] = {
     "shorted-turn": "a shorted turn in the core window: the energised winding draws about ten times "
-                    "its normal no-load current at rated voltage, rising linearly with voltage",
+                    "its normal no-load current at rated voltage, rising linearly with voltage; on a "
+                    "three-phase unit it sits on one limb (by default limb 1, phase U, an outer "
+                    "limb), so that phase's current rises",
     "missing-link": "the short-circuit link is not fitted: with the other winding set to 'short' "
                     "it is in fact open, so a ramp to rated current drives the voltage up",
     "analyser-silent": "the power analyser stops answering queries (commands are swallowed) "
@@ -33,14 +35,23 @@ FAULTS: dict[str, str] = {
                      "after 3 bay seconds energised)",
     "dropped-connection": "the instrument closes its socket on the next query (default the "
                           "analyser, after 3 bay seconds energised); new connections are accepted",
+    "open-link-phase": "three-phase: one phase of the short-circuit link is missing (by default "
+                       "phase 1, U): with the other winding set to 'short' only two of its terminals "
+                       "are joined, so the currents are unbalanced and one line current is far low",
+    "dead-source-phase": "three-phase: one phase of the source gives nothing (by default phase 1, "
+                         "U): its emf stays at zero while the other two follow the setpoint",
 }
 
 FaultName = Literal["shorted-turn", "missing-link", "analyser-silent", "overrange",
-                    "stuck-output", "garbage-reply", "dropped-connection"]
+                    "stuck-output", "garbage-reply", "dropped-connection", "open-link-phase",
+                    "dead-source-phase"]
 Role = Literal["source", "analyser", "resistance_meter", "thermometer", "bay_control"]
 
 # Faults that act on one instrument's link rather than on the physics.
 LINK_FAULTS = ("analyser-silent", "garbage-reply", "dropped-connection")
+# Faults that act on one phase (limb) of a three-phase unit.
+PHASE_FAULTS = ("shorted-turn", "open-link-phase", "dead-source-phase")
+THREE_PHASE_ONLY = ("open-link-phase", "dead-source-phase")
 
 
 class FaultTrigger(BaseModel):
@@ -67,9 +78,12 @@ class FaultSpec(BaseModel):
     trigger: FaultTrigger = FaultTrigger()
     instrument: Role = "analyser"
     repeat: int = Field(1, ge=1, le=b.MAX_READINGS, description="garbled replies or dropped connections to cause")
+    phase: int = Field(1, ge=1, le=3, description="three-phase: the phase (limb) it acts on, 1=U 2=V 3=W")
 
     @model_validator(mode="after")
     def _instrument_only_for_link_faults(self) -> "FaultSpec":
+        if self.phase != 1 and self.name not in PHASE_FAULTS:
+            raise ValueError(f"'{self.name}' does not act on one phase: drop 'phase'")
         if self.name not in LINK_FAULTS and self.instrument != "analyser":
             raise ValueError(f"'{self.name}' acts on the bay, not on one instrument: drop 'instrument'")
         if self.name == "analyser-silent" and self.instrument != "analyser":
@@ -85,6 +99,8 @@ DEFAULT_TRIGGERS: dict[str, FaultTrigger] = {
     "stuck-output": FaultTrigger(),
     "garbage-reply": FaultTrigger(after_energised=3.0),
     "dropped-connection": FaultTrigger(after_energised=3.0),
+    "open-link-phase": FaultTrigger(),
+    "dead-source-phase": FaultTrigger(),
 }
 
 

@@ -15,7 +15,20 @@ class ResistanceMeter:
         self.last_side = "hv"
 
     def side(self, channel: int) -> str | None:
-        return next((s for s, ch in self.spec.channels.items() if ch == channel), None)
+        return self.terminals(channel)[0]
+
+    def terminals(self, channel: int) -> tuple[str | None, int | None]:
+        """(winding, line-to-line pair 0..2 or None on a single-phase unit) of ``channel``."""
+        for side, ch in self.spec.channels.items():
+            if ch == channel:
+                return side, None
+            if isinstance(ch, tuple) and channel in ch:
+                return side, ch.index(channel)
+        return None, None
+
+    def default_channel(self, side: str) -> int:
+        ch = self.spec.channels[side]
+        return ch if isinstance(ch, int) else ch[0]
 
     def measure(self, side: str, true_ohm: float) -> float:
         self.last_side = side

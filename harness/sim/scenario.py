@@ -6,6 +6,7 @@ numbers. Values take units ("6.6 kV", "4.85 ohm", "30 min"); plain numbers are S
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 from typing import Literal
 
@@ -18,7 +19,8 @@ from harness.common.units import (
     Voltage, VoltageRate, quantity,
 )
 from harness.common.yamlio import load_model, read_input
-from harness.sim.faults import FaultSpec
+from harness.sim import connections
+from harness.sim.faults import THREE_PHASE_ONLY, FaultSpec
 
 SPEC_VERSION = 1
 SIM_CONFIGS = Path(__file__).resolve().parents[2] / "sim_configs"
@@ -33,9 +35,27 @@ class _Frozen(BaseModel):
 
 
 class WindingSpec(_Frozen):
+    """Single-phase: the winding. Three-phase: ``rated_voltage`` line-to-line, ``resistance`` and
+    ``leakage_reactance`` of one winding phase as connected (a zigzag phase: both halves)."""
+
     rated_voltage: Voltage = Field(gt=0)
     resistance: Resistance = Field(gt=0, description="d.c., at resistance_temperature")
     leakage_reactance: Resistance = Field(gt=0, description="its own side, at rated frequency")
+    connection: Literal["star", "delta", "zigzag"] | None = Field(None, description="three-phase only")
+    neutral: bool = Field(False, description="star or zigzag: the neutral is brought out")
+    phase_spread: tuple[Percent, Percent, Percent] = Field(
+        (0.0, 0.0, 0.0), description="three-phase: deviation of each phase's R and X from the stated value")
+
+    @model_validator(mode="after")
+    def _neutral_needs_a_star_point(self) -> "WindingSpec":
+        if self.neutral and self.connection == "delta":
+            raise ValueError("a delta winding has no neutral")
+        if any(abs(d) > 10.0 for d in self.phase_spread):
+            raise ValueError("phase_spread values must lie within +-10 %")
+        return self
+
+    def phase_factor(self, phase: int) -> float:
+        return 1.0 + self.phase_spread[phase] / 100.0
 
 
 class CoreSpec(_Frozen):
@@ -45,6 +65,24 @@ class CoreSpec(_Frozen):
     magnetising_current: Percent = Field(gt=0, lt=50, description="quadrature current at rated voltage, % of rated")
     knee_share: float = Field(0.3, ge=0, lt=1, description="share of the peak magnetising current from the saturating term at rated flux")
     knee_exponent: int = Field(15, ge=3, le=41, description="odd power of flux of the saturating term")
+    # Three-limb core: the middle limb's magnetic path (no yoke run to an outer limb) is shorter,
+    # so its magnetising current is lower than the outer limbs'; 0.6..0.8 of an outer limb's is a
+    # usual figure (common practice, recalled; no source). Its loss is slightly lower too.
+    middle_limb_magnetising: float = Field(0.7, gt=0, le=1.5, description="middle limb / outer limb, magnetising current")
+    middle_limb_loss: float = Field(0.9, gt=0, le=1.5, description="middle limb / outer limb, core loss")
+
+    def limb_weights(self, middle: float) -> tuple[float, float, float]:
+        """Each limb's share, mean 1 over the three limbs, the middle one ``middle`` x an outer."""
+        scale = 3.0 / (2.0 + middle)
+        return scale, middle * scale, scale
+
+    @property
+    def magnetising_weights(self) -> tuple[float, float, float]:
+        return self.limb_weights(self.middle_limb_magnetising)
+
+    @property
+    def loss_weights(self) -> tuple[float, float, float]:
+        return self.limb_weights(self.middle_limb_loss)
 
     @model_validator(mode="after")
     def _odd_exponent(self) -> "CoreSpec":
@@ -60,8 +98,10 @@ class ThermalSpec(_Frozen):
 
 class TransformerSpec(_Frozen):
     name: str = Field(min_length=1)
-    phases: Literal[1] = 1
-    rated_power: ApparentPower = Field(gt=0)
+    phases: Literal[1, 3] = 1
+    rated_power: ApparentPower = Field(gt=0, description="three-phase: the total")
+    vector_group: str | None = Field(None, description="three-phase: e.g. Dyn11 (or give clock)")
+    clock: int | None = Field(None, ge=0, le=11, description="three-phase: the clock number")
     frequency: Frequency = Field(gt=0)
     winding_material: Literal["copper", "aluminium"]
     hv: WindingSpec
@@ -80,12 +120,71 @@ class TransformerSpec(_Frozen):
             raise ValueError("hv.rated_voltage must be above lv.rated_voltage")
         return self
 
+    @model_validator(mode="after")
+    def _connections(self) -> "TransformerSpec":
+        given = [w.connection is not None for w in (self.hv, self.lv)]
+        if self.phases == 1:
+            if any(given) or self.vector_group or self.clock is not None or self.hv.neutral or self.lv.neutral:
+                raise ValueError("connection, neutral, vector_group and clock are for three-phase units "
+                                 "(phases: 3)")
+            return self
+        if self.vector_group is None and self.clock is None:
+            raise ValueError("a three-phase unit needs vector_group (e.g. Dyn11) or clock")
+        if self.vector_group is not None:
+            group = connections.parse_vector_group(self.vector_group)
+            stated = (self.hv.connection or group.hv, self.hv.neutral or group.hv_neutral,
+                      self.lv.connection or group.lv, self.lv.neutral or group.lv_neutral)
+            if stated != (group.hv, group.hv_neutral, group.lv, group.lv_neutral):
+                raise ValueError(f"vector_group {self.vector_group} does not match the windings "
+                                 f"({connections.vector_group_name(*stated, group.clock)})")
+            if self.clock is not None and self.clock != group.clock:
+                raise ValueError(f"clock {self.clock} does not match vector_group {self.vector_group}")
+        elif not all(given):
+            raise ValueError("give hv.connection and lv.connection, or a vector_group")
+        connections.arrangements(self.connection("hv"), self.connection("lv"), self.clock_number)
+        return self
+
     @property
     def material_constant(self) -> float:
         return MATERIAL_CONSTANT[self.winding_material]
 
     def rated_current(self, side: str) -> float:
+        """The rated line current (single-phase: the winding current)."""
+        if self.phases == 3:
+            return self.rated_power / (math.sqrt(3.0) * self.winding(side).rated_voltage)
         return self.rated_power / self.winding(side).rated_voltage
+
+    def rated_phase_current(self, side: str) -> float:
+        """The rated current of one winding phase (a delta phase: line current over root 3)."""
+        if self.phases == 3:
+            return connections.phase_current(self.connection(side), self.rated_power,
+                                             self.winding(side).rated_voltage)
+        return self.rated_current(side)
+
+    def connection(self, side: str) -> str:
+        """Star, delta or zigzag, from the winding or else the vector group."""
+        stated = self.winding(side).connection
+        if stated is not None or self.vector_group is None:
+            return stated or "star"
+        group = connections.parse_vector_group(self.vector_group)
+        return group.hv if side == "hv" else group.lv
+
+    def has_neutral(self, side: str) -> bool:
+        if self.winding(side).neutral or self.vector_group is None:
+            return self.winding(side).neutral
+        group = connections.parse_vector_group(self.vector_group)
+        return group.hv_neutral if side == "hv" else group.lv_neutral
+
+    @property
+    def clock_number(self) -> int:
+        if self.clock is not None:
+            return self.clock
+        return connections.parse_vector_group(self.vector_group).clock if self.vector_group else 0
+
+    @property
+    def vector_group_name(self) -> str:
+        return connections.vector_group_name(self.connection("hv"), self.has_neutral("hv"),
+                                             self.connection("lv"), self.has_neutral("lv"), self.clock_number)
 
     def winding(self, side: str) -> WindingSpec:
         return self.hv if side == "hv" else self.lv
@@ -142,6 +241,8 @@ class AnalyserSpec(_Frozen):
     overload_factor: float = Field(1.2, ge=1.0, le=2.0)
     vt_ratio: float = Field(1.0, gt=0, description="voltage transformer ahead of the analyser: primary/secondary")
     ct_ratio: float = Field(1.0, gt=0, description="current transformer ahead of the analyser: primary/secondary")
+    connection: Literal["three-wattmeter", "two-wattmeter"] = Field(
+        "three-wattmeter", description="three-phase units: how the measuring elements are connected")
 
     @model_validator(mode="after")
     def _ranges_ascending(self) -> "AnalyserSpec":
@@ -153,7 +254,10 @@ class AnalyserSpec(_Frozen):
 
 
 class ResistanceMeterSpec(_Frozen):
-    channels: dict[Literal["hv", "lv"], int] = {"hv": 1, "lv": 2}
+    """Single-phase: one channel per winding. Three-phase: three per winding, the line-to-line
+    terminal pairs (U-V, V-W, W-U) in that order, e.g. ``{hv: [1, 2, 3], lv: [4, 5, 6]}``."""
+
+    channels: dict[Literal["hv", "lv"], int | tuple[int, int, int]] = {"hv": 1, "lv": 2}
     test_current: dict[Literal["hv", "lv"], Current] = {"hv": 1.0, "lv": 10.0}
     accuracy: Percent = Field(0.02, ge=0, description="bound, % of reading")
     noise: Percent = Field(0.005, ge=0, description="1 sigma, % of reading")
@@ -177,10 +281,11 @@ class ThermometerSpec(_Frozen):
         return self
 
 
-def _check_channels(channels: dict[str, int], needed: set[str]) -> None:
+def _check_channels(channels: dict[str, int | tuple[int, ...]], needed: set[str]) -> None:
     if set(channels) != needed:
         raise ValueError(f"channels needs exactly {', '.join(sorted(needed))}")
-    if len(set(channels.values())) != len(channels) or min(channels.values()) < 1:
+    numbers = [n for v in channels.values() for n in ((v,) if isinstance(v, int) else v)]
+    if len(set(numbers)) != len(numbers) or min(numbers) < 1:
         raise ValueError("channel numbers must be distinct and at least 1")
 
 
@@ -214,6 +319,22 @@ class Scenario(_Frozen):
     def _known_version(self) -> "Scenario":
         if self.spec != SPEC_VERSION:
             raise ValueError(f"spec {self.spec} is not supported; this version reads spec {SPEC_VERSION}")
+        return self
+
+    @model_validator(mode="after")
+    def _channels_fit_the_phases(self) -> "Scenario":
+        triples = {side: isinstance(ch, tuple) for side, ch in self.resistance_meter.channels.items()}
+        if self.transformer.phases == 3 and not all(triples.values()):
+            raise ValueError("resistance_meter.channels: a three-phase unit needs three channels per "
+                             "winding, e.g. {hv: [1, 2, 3], lv: [4, 5, 6]}")
+        if self.transformer.phases == 1 and any(triples.values()):
+            raise ValueError("resistance_meter.channels: a single-phase unit has one channel per winding")
+        if self.transformer.phases == 3 and self.analyser.channels < 3:
+            raise ValueError("analyser.channels: a three-phase unit needs three channels")
+        if self.transformer.phases == 1:
+            for fault in self.faults:
+                if fault.name in THREE_PHASE_ONLY or fault.phase != 1:
+                    raise ValueError(f"faults: '{fault.name}' on one phase needs a three-phase unit")
         return self
 
     def with_faults(self, faults: tuple[FaultSpec, ...]) -> "Scenario":

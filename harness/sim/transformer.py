@@ -13,8 +13,8 @@ mean-rectified voltage over frequency, plus eddy following rms voltage squared) 
 conductance, magnetising current from a saturating characteristic as a susceptance. A few
 fixed-point passes settle it; everything is phasor algebra, no waveform simulation.
 
-A three-phase unit would add a phase index to the same quantities; nothing here assumes one
-phase beyond the scalar state.
+The three-phase unit (``three_phase``) builds on this class: the same resistances, core
+characteristic and thermal nodes, per winding phase and per limb.
 """
 
 from __future__ import annotations
@@ -74,9 +74,10 @@ class Transformer:
         return self.spec.winding(side).resistance * (c + theta) / (c + self.spec.resistance_temperature)
 
     def r_additional(self, side: Side, theta: float) -> float:
-        """Half the additional load loss as a resistance on ``side``, falling with temperature."""
+        """Half the additional load loss as a resistance on ``side`` (per winding phase of a
+        three-phase unit), falling with temperature."""
         c, ref = self.spec.material_constant, self.spec.reference_temperature
-        at_ref = 0.5 * self.spec.additional_loss / self.spec.rated_current(side) ** 2
+        at_ref = 0.5 * self.spec.additional_loss / self.spec.phases / self.spec.rated_phase_current(side) ** 2
         return at_ref * (c + ref) / (c + theta)
 
     def referral(self, fed: Side) -> float:
@@ -169,7 +170,7 @@ def _at_freq(z_rated: complex, h: int, freq_pu: float) -> complex:
 def _branch_currents(emf, orders, z1, z2, z_link, g, b, y_fault, zs: SourceImpedance, freq_pu: float):
     v_out, i_out, e_out, i2_out = [], [], [], []
     for idx, h in enumerate(orders):
-        y_shunt = complex(g, -b / h) + _fault_at(y_fault, h, freq_pu)
+        y_shunt = complex(g, -b / h) + fault_at(y_fault, h, freq_pu)
         y_other = 0j if z_link is None else 1.0 / (z2[idx] + z_link)
         y_mid = y_shunt + y_other
         i = 0j if y_mid == 0 else emf[idx] / (zs.at(h, freq_pu) + z1[idx] + 1.0 / y_mid)
@@ -182,7 +183,7 @@ def _branch_currents(emf, orders, z1, z2, z_link, g, b, y_fault, zs: SourceImped
     return tuple(v_out), tuple(i_out), tuple(e_out), tuple(i2_out)
 
 
-def _fault_at(y_fault: complex, h: int, freq_pu: float) -> complex:
+def fault_at(y_fault: complex, h: int, freq_pu: float) -> complex:
     """The shorted-turn loop as a series R + jX whose reactance scales with frequency."""
     if y_fault == 0:
         return 0j

@@ -71,7 +71,8 @@ def scenario_fields(scenario: Any) -> dict[str, Any]:
     # A three-phase source's ratings are per phase, line-to-neutral: the bay's voltage limit is
     # the line-to-line voltage it can give, its power limit the three phases'.
     line_voltage = src.max_voltage * (SQRT3 if phases == 3 else 1.0)
-    channels = ", ".join(f"{w}: {c}" for w, c in scenario.resistance_meter.channels.items())
+    channels = ", ".join(f"{w}: {list(c) if isinstance(c, (list, tuple)) else c}"
+                         for w, c in scenario.resistance_meter.channels.items())
     return {
         "source_profile": "three-phase-ac-source" if phases == 3 else "generic-ac-source",
         "resistance_channels": "{" + channels + "}",

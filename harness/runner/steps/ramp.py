@@ -35,14 +35,17 @@ def measured(sample: Sample, quantity: str) -> float:
 
 
 def initial_gain(run: Run, quantity: str) -> float:
-    """Measured quantity per volt before any reading: 1 for voltage, 1/Z from the nameplate for current."""
+    """Measured quantity per volt of setpoint before any reading: for voltage the line voltage per
+    source volt (sqrt 3 for a three-phase source set line-to-neutral), for current 1/Z of the
+    star-equivalent phase from the nameplate."""
+    factor = run.supervisor.setpoint_factor
     if quantity == "voltage":
-        return run.gains.get("voltage", 1.0)
+        return run.gains.get("voltage", factor)
     if "current" in run.gains:
         return run.gains["current"]
     g = run.sequence.guarantees
     z_pct = getattr(g, "impedance", None) if g is not None else None
-    z_ohm = (z_pct or 6.0) / 100 * run.rated("voltage") / run.rated("current")
+    z_ohm = (z_pct or 6.0) / 100 * run.rated("voltage") / factor / run.rated("current")
     return 1.0 / z_ohm
 
 
@@ -70,7 +73,8 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
     k = k or 1.0
     gain = initial_gain(run, quantity)
     first = aim / gain / k
-    run.send_setpoint(min(first * 0.5, run.supervisor.limits.voltage) if quantity == "current" else first * 0.98)
+    cap = run.supervisor.limits.voltage / run.supervisor.setpoint_factor
+    run.send_setpoint(min(first * 0.5, cap) if quantity == "current" else first * 0.98)
     applied: list[tuple[float, float]] = []
     peak = 0.0
     deadline = start + _time_allowed(run, first)

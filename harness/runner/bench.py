@@ -6,9 +6,9 @@
   overshoot, for the learned ramp and for a fixed-increment baseline.
 """
 
-from harness.common.reading import Phase, combine
 from __future__ import annotations
 
+from harness.common.reading import Phase, combine
 import contextlib
 import statistics
 import subprocess

@@ -15,6 +15,7 @@ ramp down) starts from the live reading.
 from __future__ import annotations
 
 import math
+from collections import deque
 from dataclasses import dataclass
 
 from harness.config.reach import (FIRST_SETPOINT_SHARE, FIXED_INCREMENT_S, LOWEST_PLAUSIBLE_IMPEDANCE_PCT,
@@ -31,6 +32,9 @@ K_RANGE = (0.8, 1.25)       # plausible applied/set ratios; outside, the source 
 LEARN_FROM = 0.05          # learn the gain once the applied voltage passes 5 % of the goal
 FIRST_VOLTAGE_SHARE = 0.95  # a voltage ramp's first setpoint before its gain is known: room for a
 #                             mean-value voltage a few % above the rms one (a flat-topped supply)
+GAIN_READINGS = 5           # readings the gain is fitted over
+NOISE_SHARE = 0.25          # a wanted move below this share of the band is taken for reading noise
+#                             (a low test voltage on a low-impedance unit reads noisily on its range)
 GUARD_MIN_RISE = 0.002      # readings closer than this in voltage give no usable exponent (noise)
 
 
@@ -102,7 +106,11 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
     k = run.gains.get("drop")
     aim = target * (1 + 0.75 * band) if quantity == "current" and not k else target
     k = k or 1.0
+    live = run.setpoint > 0 and run.last_sample is not None
     _first_setpoint(run, quantity, aim, k)
+    moved_at = run.clock.now()
+    count = 0
+    points: deque[tuple[float, float]] = deque(maxlen=GAIN_READINGS)
     applied: list[tuple[float, float]] = []
     first: float | None = None
     furthest = math.nan
@@ -123,17 +131,32 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
         if settled and abs(y - target) <= band * target:
             run.gains[quantity] = y / s.u_rms
             return RampResult(y, run.clock.now() - start, first, furthest)
-        if settled and K_RANGE[0] <= s.u_rms / run.setpoint <= K_RANGE[1]:
+        # The drop only from a source that stands still: the first reading of a ramp that starts
+        # energised, or settled readings taken after the setpoint last moved (one taken while the
+        # source still follows a move would blame the move on the wiring).
+        count += 1
+        steady = (live and count == 1) or (settled and sum(1 for t, _ in applied if t > moved_at) >= SETTLED_READINGS)
+        if steady and K_RANGE[0] <= s.u_rms / run.setpoint <= K_RANGE[1]:
             k, aim = s.u_rms / run.setpoint, target
             run.gains["drop"] = k
         if y > 0 and s.u_rms > LEARN_FROM * run.setpoint:
-            wanted = aim / (y / s.u_rms) / k
-            if abs(wanted - run.setpoint) > band / 10 * wanted:  # below that, reading noise
+            points.append((s.u_rms, y))
+            wanted = aim / _gain(points) / k
+            if abs(wanted - run.setpoint) > NOISE_SHARE * band * wanted:  # below that, reading noise
                 if abs(wanted - run.setpoint) > band / 2 * wanted:
                     applied.clear()  # a real move: the source must settle again
                 run.send_setpoint(wanted)
+                moved_at = s.t
         if run.clock.now() > deadline:
             raise Trip(f"ramp did not reach {target:.4g} within tolerance", quantity, y, target, run.step_title, run.clock.now())
+
+
+def _gain(points: deque[tuple[float, float]]) -> float:
+    """Measured quantity per applied volt: the least-squares line through the origin of the last
+    few (applied volts, reading) points. The unit's gain holds while the source moves, so every
+    reading counts; weighting by the volts keeps the noisy first readings near zero from counting
+    much, and a few readings together halve the noise that a low test voltage on a wide range reads."""
+    return sum(u * y for u, y in points) / sum(u * u for u, _ in points)
 
 
 def _stop_before_current_limit(run: Run, previous: Sample | None, s: Sample, target: float) -> None:

@@ -35,6 +35,7 @@ FIRST_VOLTAGE_SHARE = 0.95  # a voltage ramp's first setpoint before its gain is
 GAIN_READINGS = 5           # readings the gain is fitted over
 NOISE_SHARE = 0.25          # a wanted move below this share of the band is taken for reading noise
 #                             (a low test voltage on a low-impedance unit reads noisily on its range)
+GUARD_STEPS = 2             # voltage steps like the last one looked ahead: the next reading may come late
 GUARD_MIN_RISE = 0.002      # readings closer than this in voltage give no usable exponent (noise)
 
 
@@ -162,19 +163,19 @@ def _gain(points: deque[tuple[float, float]]) -> float:
 def _stop_before_current_limit(run: Run, previous: Sample | None, s: Sample, target: float) -> None:
     """A no-load ramp's magnetising current grows much faster than the voltage near the core's
     knee. From the last two readings, the local exponent n of I ~ U**n; when the voltage, rising
-    by its last step once more, would bring the current to the step's current limit, stop raising
-    before a reading crosses it."""
+    by GUARD_STEPS more steps like its last, would bring the current to the step's current limit,
+    stop raising before a reading crosses it."""
     if previous is None or previous.u_mean < LEARN_FROM * target or s.u_mean >= target:
         return
     if previous.i_rms <= 0 or s.i_rms <= previous.i_rms or s.u_mean <= previous.u_mean * (1 + GUARD_MIN_RISE):
         return
     exponent = math.log(s.i_rms / previous.i_rms) / math.log(s.u_mean / previous.u_mean)
-    ahead = s.i_rms * ((2 * s.u_mean - previous.u_mean) / s.u_mean) ** exponent
+    ahead = s.i_rms * (1 + GUARD_STEPS * (s.u_mean / previous.u_mean - 1)) ** exponent
     limit = run.supervisor.limits.current
     if ahead >= limit:
         raise Trip(f"no-load ramp stopped at {s.u_mean:.4g} V before {target:.4g} V: the magnetising current "
                    f"{s.i_rms:.4g} A, rising as the {exponent:.1f}th power of the voltage, would reach the step's "
-                   "current limit at the next reading", "current", ahead, limit, run.step_title, run.clock.now())
+                   f"current limit within {GUARD_STEPS} more readings", "current", ahead, limit, run.step_title, run.clock.now())
 
 
 def _settled(applied: list[tuple[float, float]], spread: float, window: float) -> bool:

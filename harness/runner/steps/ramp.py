@@ -83,10 +83,8 @@ def ramp_to(run: Run, quantity: str, target: float, tolerance_pct: float, method
 
 
 def _first_setpoint(run: Run, quantity: str, aim: float, k: float) -> None:
-    """From zero: a setpoint below the target on any plausible unit. Already energised: none; the
-    first reading gives the live gain and the loop commands from it."""
-    if run.setpoint > 0 and run.last_sample is not None:
-        return
+    """From zero: a setpoint below the target on any plausible unit. (Already energised, none: the
+    first reading gives the live gain and the loop commands from it.)"""
     if quantity == "current":
         share = FIRST_SETPOINT_SHARE
     else:
@@ -108,7 +106,8 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
     aim = target * (1 + 0.75 * band) if quantity == "current" and not k else target
     k = k or 1.0
     live = run.setpoint > 0 and run.last_sample is not None
-    _first_setpoint(run, quantity, aim, k)
+    if not live:
+        _first_setpoint(run, quantity, aim, k)
     moved_at = run.clock.now()
     count = 0
     points: deque[tuple[float, float]] = deque(maxlen=GAIN_READINGS)

@@ -68,6 +68,11 @@ class Supervisor:
         return LimitTrip(f"{quantity.replace('_', ' ')} limit{on}", quantity, value, limit, self.step,
                          self.clock.now(), phase or None)
 
+    @property
+    def setpoint_limit(self) -> float:
+        """The voltage limit in the source's own terms (the highest setpoint it may be sent)."""
+        return self.limits.voltage / self.setpoint_factor
+
     def check_setpoint(self, volts: float) -> None:
         """``volts`` in the source's own terms; ``setpoint_factor`` turns them into the line
         voltage the limits are given in (sqrt 3 for a three-phase source set line-to-neutral)."""

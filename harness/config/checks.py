@@ -14,6 +14,7 @@ from harness.common.yamlio import LoadedYaml
 from harness.config.sequence import Sequence
 from harness.config.station import Limits, Station
 from harness.config.steps import Measure, Prompt, Ramp, Repeat, Resistance, Sweep, TargetStep, Wiring
+from harness.config.reach import current_per_volt, fixed_increment_volts, magnetising_current, ramp_reach
 from harness.config.targets import parse_target
 
 _LIMIT_UNITS = {"voltage": "V", "current": "A", "power": "W", "energised_time": "s", "winding_temperature": "degC"}
@@ -127,12 +128,12 @@ class _Checker:
                 continue
             value = resolve_target(self.sequence, step, text, wiring.fed)
             self.reachable(step.quantity, value, where, limits, wiring)
+            method = step.method if isinstance(step, Ramp) else "learned"
+            self.inside_limit(step.quantity, value, step.tolerance, method, where, limits, wiring)
+            if step.quantity == "voltage" and wiring.other == "open":
+                self.magnetising_inside(value, step.tolerance, method, where, limits, wiring)
 
     def reachable(self, quantity: str, value: float, path: tuple[Any, ...], limits: EffectiveLimits, wiring: Wiring) -> None:
-        if quantity == "voltage" and value > limits.voltage:
-            self.fail(path, f"target {value:g} V is above the voltage limit of {limits.voltage:g} V")
-        if quantity == "current" and value > limits.current:
-            self.fail(path, f"target {value:g} A is above the current limit of {limits.current:g} A")
         if quantity == "current":
             needed = self.expected_voltage(value, wiring.fed)
             if needed is not None and needed > limits.voltage:
@@ -141,9 +142,58 @@ class _Checker:
         if quantity == "voltage" and wiring.other == "short":
             self.fail(path, "a voltage target with the other winding shorted: that is a load-loss test, ramp on current")
 
-    def expected_voltage(self, current: float, winding: str) -> float | None:
+    def increment_reach(self, quantity: str, wiring: Wiring) -> float:
+        """What one setpoint increment of the fixed-increment method adds to the ramped quantity."""
+        volts = fixed_increment_volts(self.station.limits.slew)
+        if quantity == "voltage":
+            return volts
+        fed = wiring.fed
+        return volts * current_per_volt(rated_voltage(self.sequence, fed), rated_current(self.sequence, fed),
+                                        self.guaranteed("impedance"))
+
+    def inside_limit(self, quantity: str, value: float, tolerance: float, method: str, path: tuple[Any, ...],
+                     limits: EffectiveLimits, wiring: Wiring) -> None:
+        """The highest reading the ramp may take (band top plus the method's overshoot) strictly
+        below the step's effective limit of that quantity."""
+        limit, unit = getattr(limits, quantity), _LIMIT_UNITS[quantity]
+        extra = self.increment_reach(quantity, wiring) if method == "fixed-increment" else 0.0
+        reach = ramp_reach(value, tolerance, method, extra)
+        if reach < limit:
+            return
+        overshoot = f" plus one {extra:.3g} {unit} increment of the fixed-increment method" if extra else ""
+        highest = (limit - extra) / (1 + tolerance / 100)
+        advice = (f"lower the target or the tolerance to leave at least {reach - value:.3g} {unit} between target "
+                  f"and limit (at ± {tolerance:g} % the target must stay below {highest:.4g} {unit})"
+                  if highest > 0 else "use the learned method")
+        self.fail(path, f"target {value:.4g} {unit} ± {tolerance:g} %{overshoot} reaches {reach:.4g} {unit}, "
+                        f"not below the step's {quantity} limit of {limit:g} {unit}; {advice}")
+
+    def magnetising_inside(self, value: float, tolerance: float, method: str, path: tuple[Any, ...],
+                           limits: EffectiveLimits, wiring: Wiring) -> None:
+        """A no-load ramp's magnetising current, predicted from the guaranteed no-load current,
+        strictly below the step's current limit."""
+        i0_pct = self.guaranteed("no_load_current")
+        if i0_pct is None:
+            return
+        fed = wiring.fed
+        u_rated, i_rated = rated_voltage(self.sequence, fed), rated_current(self.sequence, fed)
+        extra = self.increment_reach("voltage", wiring) if method == "fixed-increment" else 0.0
+        pu = ramp_reach(value, tolerance, method, extra) / u_rated
+        predicted = magnetising_current(i0_pct, i_rated, pu)
+        if predicted < limits.current:
+            return
+        self.fail(path, f"a no-load ramp to {value:.4g} V ({100 * value / u_rated:.0f} % of rated, up to {100 * pu:.1f} % "
+                        f"with its tolerance) is predicted to draw about {predicted:.3g} A (guaranteed no-load current "
+                        f"{i0_pct:g} % of {i_rated:.4g} A, in proportion to the voltage and doubled for every 10 % above "
+                        f"rated), not below the step's current limit of {limits.current:g} A; lower the target or give "
+                        "the step a current limit that fits (within the sequence's and station's)")
+
+    def guaranteed(self, name: str) -> float | None:
         g = self.sequence.guarantees
-        impedance = getattr(g, "impedance", None) if g is not None else None
+        return getattr(g, name, None) if g is not None else None
+
+    def expected_voltage(self, current: float, winding: str) -> float | None:
+        impedance = self.guaranteed("impedance")
         if impedance is None:
             return None
         return impedance / 100 * rated_voltage(self.sequence, winding) * current / rated_current(self.sequence, winding)

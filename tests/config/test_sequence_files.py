@@ -64,7 +64,7 @@ def test_unreachable_target_is_refused(tmp_path: Path) -> None:
     path = routine_with(tmp_path, "voltage: [90 %, 100 %, 105 %, 110 %]", "voltage: [90 %, 100 %, 130 %]")
     err = error_of(path)
     assert err.line == line_of(path, "130 %")
-    assert "above the voltage limit" in str(err)
+    assert "not below the step's voltage limit of 520 V" in str(err)
 
 
 def test_load_target_needing_too_much_voltage_is_refused(tmp_path: Path) -> None:

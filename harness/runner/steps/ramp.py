@@ -4,13 +4,22 @@ The controller learns the unit's gain from the readings (measured quantity per a
 and commands the setpoint that the gain predicts; the source slews there at the bay's
 maximum rate. Close to the target it trims on the settled reading. For the no-load test the
 measured quantity is the mean-value voltage, as the test codes set it.
+
+Safe on any unit: a current ramp's first setpoint assumes the lowest plausible impedance
+(``harness.config.reach``), so it stays below the target whatever the unit; from then on the
+setpoint follows the gain measured on this unit. A voltage ramp stops before its magnetising
+current reaches the step's current limit. A ramp that starts energised (a sweep's next point, a
+ramp down) starts from the live reading.
 """
 
 from __future__ import annotations
 
 import math
+from collections import deque
 from dataclasses import dataclass
 
+from harness.config.reach import (FIRST_SETPOINT_SHARE, FIXED_INCREMENT_S, LOWEST_PLAUSIBLE_IMPEDANCE_PCT,
+                                  band_top, fixed_increment_volts)
 from harness.runner.context import Run, Sample
 from harness.runner.steps import register
 from harness.safety import Trip
@@ -21,32 +30,49 @@ SETTLED_READINGS = 3        # distinct readings within half the tolerance band c
 SETTLED_WINDOW_FACTOR = 2   # ... over at least this many of the analyser's measuring intervals
 K_RANGE = (0.8, 1.25)       # plausible applied/set ratios; outside, the source is still moving
 LEARN_FROM = 0.05          # learn the gain once the applied voltage passes 5 % of the goal
+FIRST_VOLTAGE_SHARE = 0.95  # a voltage ramp's first setpoint before its gain is known: room for a
+#                             mean-value voltage a few % above the rms one (a flat-topped supply)
+GAIN_READINGS = 5           # readings the gain is fitted over
+NOISE_SHARE = 0.25          # a wanted move below this share of the band is taken for reading noise
+#                             (a low test voltage on a low-impedance unit reads noisily on its range)
+GUARD_STEPS = 2             # voltage steps like the last one looked ahead: the next reading may come late
+GUARD_MIN_RISE = 0.002      # readings closer than this in voltage give no usable exponent (noise)
 
 
 @dataclass
 class RampResult:
     reached: float
     seconds: float
-    peak: float
+    start: float
+    """The first reading: below the target for a ramp up, above it for a ramp down."""
+    furthest: float
+    """The reading furthest along the direction of travel: the highest going up, the lowest going down."""
+
+    def overshoot(self, target: float, tolerance_pct: float) -> bool:
+        """Past the band in the direction of travel (never the starting side of a ramp down)."""
+        if not math.isfinite(self.furthest):
+            return False
+        if self.start <= target:
+            return self.furthest > band_top(target, tolerance_pct)
+        return self.furthest < target * (1 - tolerance_pct / 100)
 
 
 def measured(sample: Sample, quantity: str) -> float:
     return sample.u_mean if quantity == "voltage" else sample.i_rms
 
 
-def initial_gain(run: Run, quantity: str) -> float:
-    """Measured quantity per volt of setpoint before any reading: for voltage the line voltage per
-    source volt (sqrt 3 for a three-phase source set line-to-neutral), for current 1/Z of the
-    star-equivalent phase from the nameplate."""
-    factor = run.supervisor.setpoint_factor
+def first_gain(run: Run, quantity: str) -> float:
+    """Measured quantity per volt of setpoint before any reading of this ramp: learned on this
+    wiring when an earlier ramp measured it; else the line voltage per source volt for voltage
+    and, for current, the most current a volt can
+    drive (the lowest plausible impedance, whatever the guarantee says: a wrong or missing
+    guarantee must not make the first setpoint overshoot)."""
+    if quantity in run.gains:
+        return run.gains[quantity]
+    factor = run.supervisor.setpoint_factor  # line volts per source volt: sqrt 3 for a three-phase source
     if quantity == "voltage":
-        return run.gains.get("voltage", factor)
-    if "current" in run.gains:
-        return run.gains["current"]
-    g = run.sequence.guarantees
-    z_pct = getattr(g, "impedance", None) if g is not None else None
-    z_ohm = (z_pct or 6.0) / 100 * run.rated("voltage") / factor / run.rated("current")
-    return 1.0 / z_ohm
+        return factor
+    return 1.0 / (LOWEST_PLAUSIBLE_IMPEDANCE_PCT / 100 * run.rated("voltage") / factor / run.rated("current"))
 
 
 def ramp_to(run: Run, quantity: str, target: float, tolerance_pct: float, method: str = "learned") -> RampResult:
@@ -56,6 +82,16 @@ def ramp_to(run: Run, quantity: str, target: float, tolerance_pct: float, method
     if method == "fixed-increment":
         return _fixed_increment(run, quantity, target, tolerance_pct)
     return _learned(run, quantity, target, tolerance_pct)
+
+
+def _first_setpoint(run: Run, quantity: str, aim: float, k: float) -> None:
+    """From zero: a setpoint below the target on any plausible unit. (Already energised, none: the
+    first reading gives the live gain and the loop commands from it.)"""
+    if quantity == "current":
+        share = FIRST_SETPOINT_SHARE
+    else:
+        share = 0.98 if quantity in run.gains else FIRST_VOLTAGE_SHARE
+    run.send_setpoint(min(share * aim / first_gain(run, quantity) / k, run.supervisor.setpoint_limit))
 
 
 def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> RampResult:
@@ -71,35 +107,76 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
     k = run.gains.get("drop")
     aim = target * (1 + 0.75 * band) if quantity == "current" and not k else target
     k = k or 1.0
-    gain = initial_gain(run, quantity)
-    first = aim / gain / k
-    cap = run.supervisor.limits.voltage / run.supervisor.setpoint_factor
-    run.send_setpoint(min(first * 0.5, cap) if quantity == "current" else first * 0.98)
+    live = run.setpoint > 0 and run.last_sample is not None
+    if not live:
+        _first_setpoint(run, quantity, aim, k)
+    moved_at = run.clock.now()
+    count = 0
+    points: deque[tuple[float, float]] = deque(maxlen=GAIN_READINGS)
     applied: list[tuple[float, float]] = []
-    peak = 0.0
-    deadline = start + _time_allowed(run, first)
+    first: float | None = None
+    furthest = math.nan
+    previous: Sample | None = None
+    deadline = start + _time_allowed(run, run.supervisor.setpoint_limit)
     while True:
         run.clock.sleep(run.update_interval)
         s = run.read()
         y = measured(s, quantity)
-        peak = max(peak, y)
+        first = y if first is None else first
+        furthest = y if math.isnan(furthest) else (max(furthest, y) if first <= target else min(furthest, y))
+        if quantity == "voltage":
+            _stop_before_current_limit(run, previous, s, target)
+        previous = s
         if not applied or s.u_source != applied[-1][1]:
             applied.append((s.t, s.u_source))  # a repeated value is the same analyser update, not a settled source
         settled = _settled(applied, band / 2, SETTLED_WINDOW_FACTOR * run.measure_averaging)
         if settled and abs(y - target) <= band * target:
             run.gains[quantity] = y / s.u_source
-            return RampResult(y, run.clock.now() - start, peak)
-        if settled and K_RANGE[0] <= s.u_source / run.setpoint <= K_RANGE[1]:
+            return RampResult(y, run.clock.now() - start, first, furthest)
+        # The drop only from a source that stands still: the first reading of a ramp that starts
+        # energised, or settled readings taken after the setpoint last moved (one taken while the
+        # source still follows a move would blame the move on the wiring).
+        count += 1
+        steady = (live and count == 1) or (settled and sum(1 for t, _ in applied if t > moved_at) >= SETTLED_READINGS)
+        if steady and K_RANGE[0] <= s.u_source / run.setpoint <= K_RANGE[1]:
             k, aim = s.u_source / run.setpoint, target
             run.gains["drop"] = k
         if y > 0 and s.u_source > LEARN_FROM * run.setpoint:
-            wanted = aim / (y / s.u_source) / k
-            if abs(wanted - run.setpoint) > band / 10 * wanted:  # below that, reading noise
+            points.append((s.u_source, y))
+            wanted = aim / _gain(points) / k
+            if abs(wanted - run.setpoint) > NOISE_SHARE * band * wanted:  # below that, reading noise
                 if abs(wanted - run.setpoint) > band / 2 * wanted:
                     applied.clear()  # a real move: the source must settle again
                 run.send_setpoint(wanted)
+                moved_at = s.t
         if run.clock.now() > deadline:
             raise Trip(f"ramp did not reach {target:.4g} within tolerance", quantity, y, target, run.step_title, run.clock.now())
+
+
+def _gain(points: deque[tuple[float, float]]) -> float:
+    """Measured quantity per applied volt: the least-squares line through the origin of the last
+    few (applied volts, reading) points. The unit's gain holds while the source moves, so every
+    reading counts; weighting by the volts keeps the noisy first readings near zero from counting
+    much, and a few readings together halve the noise that a low test voltage on a wide range reads."""
+    return sum(u * y for u, y in points) / sum(u * u for u, _ in points)
+
+
+def _stop_before_current_limit(run: Run, previous: Sample | None, s: Sample, target: float) -> None:
+    """A no-load ramp's magnetising current grows much faster than the voltage near the core's
+    knee. From the last two readings, the local exponent n of I ~ U**n; when the voltage, rising
+    by GUARD_STEPS more steps like its last, would bring the current to the step's current limit,
+    stop raising before a reading crosses it."""
+    if previous is None or previous.u_mean < LEARN_FROM * target or s.u_mean >= target:
+        return
+    if previous.i_rms <= 0 or s.i_rms <= previous.i_rms or s.u_mean <= previous.u_mean * (1 + GUARD_MIN_RISE):
+        return
+    exponent = math.log(s.i_rms / previous.i_rms) / math.log(s.u_mean / previous.u_mean)
+    ahead = s.i_rms * (1 + GUARD_STEPS * (s.u_mean / previous.u_mean - 1)) ** exponent
+    limit = run.supervisor.limits.current
+    if ahead >= limit:
+        raise Trip(f"no-load ramp stopped at {s.u_mean:.4g} V before {target:.4g} V: the magnetising current "
+                   f"{s.i_rms:.4g} A, rising as the {exponent:.1f}th power of the voltage, would reach the step's "
+                   f"current limit within {GUARD_STEPS} more readings", "current", ahead, limit, run.step_title, run.clock.now())
 
 
 def _settled(applied: list[tuple[float, float]], spread: float, window: float) -> bool:
@@ -120,23 +197,23 @@ def _time_allowed(run: Run, goal_volts: float) -> float:
     """Time for a ramp: five times the slew-limited time plus ten seconds, and never less than
     RAMP_FLOOR_REAL_S of real time (a host stall must not pass for a ramp that cannot settle)."""
     slew = run.station.limits.slew
-    bay = 10.0 + 5.0 * min(goal_volts, run.supervisor.limits.voltage) / slew
+    bay = 10.0 + 5.0 * min(goal_volts, run.supervisor.setpoint_limit) / slew
     return run.clock.at_least_real(bay, RAMP_FLOOR_REAL_S)
 
 
 def _fixed_increment(run: Run, quantity: str, target: float, tolerance_pct: float) -> RampResult:
     """The baseline: equal setpoint steps at the slew rate until the reading reaches the target."""
     start = run.clock.now()
-    step_v = run.station.limits.slew * 0.5
-    deadline = start + _time_allowed(run, run.supervisor.limits.voltage)
-    peak = 0.0
+    step_v = fixed_increment_volts(run.station.limits.slew)
+    deadline = start + _time_allowed(run, run.supervisor.setpoint_limit)
+    first: float | None = None
     while True:
-        run.clock.sleep(0.5)
+        run.clock.sleep(FIXED_INCREMENT_S)
         s = run.read()
         y = measured(s, quantity)
-        peak = max(peak, y)
+        first = y if first is None else first
         if y >= target * (1 - tolerance_pct / 100):
-            return RampResult(y, run.clock.now() - start, peak)
+            return RampResult(y, run.clock.now() - start, first, y)
         run.send_setpoint(run.setpoint + step_v)
         if run.clock.now() > deadline:
             raise Trip("fixed-increment ramp did not reach its target", quantity, y, target, run.step_title)
@@ -148,7 +225,9 @@ def execute(step, run: Run) -> None:
     result = ramp_to(run, step.quantity, target, step.tolerance, step.method)
     unit = "V" if step.quantity == "voltage" else "A"
     run.event("ramp", f"reached {result.reached:.4g} {unit} (target {target:.4g} {unit}) in {result.seconds:.1f} s",
-              {"target": target, "reached": result.reached, "seconds": result.seconds, "peak": result.peak,
-               "quantity": step.quantity, "method": step.method})
-    if math.isfinite(result.peak) and result.peak > target * (1 + step.tolerance / 100):
-        run.warn(f"ramp overshot: peak {result.peak:.4g} {unit} against target {target:.4g} {unit}")
+              {"target": target, "reached": result.reached, "seconds": result.seconds, "start": result.start,
+               "furthest": result.furthest, "quantity": step.quantity, "method": step.method})
+    if result.overshoot(target, step.tolerance):
+        direction = "peak" if result.start <= target else "lowest"
+        run.warn(f"ramp overshot: {direction} {result.furthest:.4g} {unit} against target {target:.4g} {unit} "
+                 f"± {step.tolerance:g} %")

@@ -168,15 +168,20 @@ def _stop_before_current_limit(run: Run, previous: Sample | None, s: Sample, tar
     stop raising before a reading crosses it."""
     if previous is None or previous.u_mean < LEARN_FROM * target or s.u_mean >= target:
         return
-    if previous.i_rms <= 0 or s.i_rms <= previous.i_rms or s.u_mean <= previous.u_mean * (1 + GUARD_MIN_RISE):
+    i_now, i_before = highest_current(s), highest_current(previous)  # the outer limbs of a three-phase core draw most
+    if i_before <= 0 or i_now <= i_before or s.u_mean <= previous.u_mean * (1 + GUARD_MIN_RISE):
         return
-    exponent = math.log(s.i_rms / previous.i_rms) / math.log(s.u_mean / previous.u_mean)
-    ahead = s.i_rms * (1 + GUARD_STEPS * (s.u_mean / previous.u_mean - 1)) ** exponent
+    exponent = math.log(i_now / i_before) / math.log(s.u_mean / previous.u_mean)
+    ahead = i_now * (1 + GUARD_STEPS * (s.u_mean / previous.u_mean - 1)) ** exponent
     limit = run.supervisor.limits.current
     if ahead >= limit:
         raise Trip(f"no-load ramp stopped at {s.u_mean:.4g} V before {target:.4g} V: the magnetising current "
-                   f"{s.i_rms:.4g} A, rising as the {exponent:.1f}th power of the voltage, would reach the step's "
+                   f"{i_now:.4g} A, rising as the {exponent:.1f}th power of the voltage, would reach the step's "
                    f"current limit within {GUARD_STEPS} more readings", "current", ahead, limit, run.step_title, run.clock.now())
+
+
+def highest_current(s: Sample) -> float:
+    return max(ph.i_rms for ph in s.phases)
 
 
 def _settled(applied: list[tuple[float, float]], spread: float, window: float) -> bool:

@@ -47,6 +47,8 @@ def _parser() -> argparse.ArgumentParser:
     chk = sub.add_parser("check", help="validate a sequence against a station; nothing is energised")
     chk.add_argument("sequence", type=Path)
     chk.add_argument("--station", type=Path)
+    chk.add_argument("--sim", default="default", metavar="SCENARIO",
+                     help="without --station: check against this simulated bay (a name or a scenario file)")
 
     ev = sub.add_parser("evaluate", help="evaluate a record of readings taken by hand")
     ev.add_argument("record", type=Path)
@@ -144,7 +146,7 @@ def _check_faults(options: Any) -> None:
 
 def cmd_check(args: argparse.Namespace) -> int:
     from harness.runner.prepare import RunOptions, prepare
-    prepared = prepare(RunOptions(args.sequence, args.station))
+    prepared = prepare(RunOptions(args.sequence, args.station, args.sim))
     steps = len(prepared.sequence.steps)
     print(f"{args.sequence}: valid against {prepared.station_file} ({steps} steps); nothing was energised")
     return 0

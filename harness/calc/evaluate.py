@@ -10,6 +10,7 @@ import math
 from collections.abc import Sequence
 
 from harness.calc import circuit, compliance, performance, temperature, uncertainty
+from harness.calc.phase_table import phase_table
 from harness.calc.basis import Basis, basis_of
 from harness.calc.corrections import corrected_record
 from harness.calc.load import LoadResult, evaluate_load
@@ -66,6 +67,7 @@ def evaluate(record: Record, loads: Sequence[float] | None = None,
         uncertainty=budgets,
         tolerance_source=tolerance_source(record.standard),
         compliance=tuple(rules),
+        phases=phase_table(record),
     )
 
 

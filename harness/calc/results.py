@@ -14,7 +14,8 @@ from harness.calc.tolerances import Check
 from harness.calc.uncertainty import Budget
 
 CONTRACT_KEYS = ("rated_current_A", "no_load", "load", "equivalent_circuit", "efficiency", "max_efficiency",
-                 "regulation", "checks", "warnings", "corrections", "uncertainty", "tolerance_source", "compliance")
+                 "regulation", "checks", "warnings", "corrections", "uncertainty", "tolerance_source", "compliance",
+                 "phases")
 
 
 @dataclass(frozen=True)
@@ -74,6 +75,8 @@ class Results:
     """Where the default tolerances of the guarantee checks come from (the record's standard)."""
     compliance: tuple[ComplianceCheck, ...] = ()
     """Checks against the efficiency regulations the record asks for."""
+    phases: dict[str, Any] | None = None
+    """Three-phase records: the per-phase readings and their spread (see phase_table)."""
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready data with exactly the contract keys (non-finite numbers become None)."""
@@ -91,6 +94,7 @@ class Results:
             "uncertainty": {q: b.to_dict() for q, b in self.uncertainty.items()},
             "tolerance_source": self.tolerance_source,
             "compliance": [c.to_dict() for c in self.compliance],
+            "phases": self.phases,
         }
         return _finite(data)
 

@@ -59,6 +59,7 @@ def context(bundle: ReportBundle) -> dict[str, Any]:
         "title": _title(bundle), "unit_name": _text(bundle.unit.get("description")), "serial": _text(bundle.unit.get("serial")), "nameplate": nameplate_rows(bundle.unit), "instruments": instrument_rows(bundle.instruments),
         "standard": _standard(bundle.run, results), "main_rows": tables.main_rows(results),
         "tolerance_source": results.get("tolerance_source"), "compliance": tables.compliance_rows(results),
+        "phase_rows": tables.phase_rows(results.get("phases")), "phase_notes": tables.phase_notes(results.get("phases")),
         "no_load": tables.detail_rows(results.get("no_load")), "load": tables.detail_rows(results.get("load")),
         "rated_current": tables.detail_rows(_rated_currents(results)),
         "circuit": tables.circuit_rows(results.get("equivalent_circuit") or {}),
@@ -119,6 +120,8 @@ def nameplate_rows(unit: dict[str, Any]) -> list[tuple[str, str]]:
         ("HV winding", _winding(unit.get("hv"))), ("LV winding", _winding(unit.get("lv"))),
         ("Winding material", _text(unit.get("winding_material"))),
     ]
+    if unit.get("vector_group"):
+        rows.insert(rows.index(("Phases", _text(unit.get("phases")))) + 1, ("Vector group", str(unit["vector_group"])))
     return rows
 
 
@@ -126,7 +129,9 @@ def _winding(winding: Any) -> str:
     if not isinstance(winding, dict):
         return fmt.DASH
     text = fmt.eng(winding.get("rated_voltage_V", winding.get("rated_voltage")), "V")
-    return f"{text}, {winding['connection']}" if winding.get("connection") else text
+    if not winding.get("connection"):
+        return text
+    return f"{text}, {winding['connection']}" + (" with neutral brought out" if winding.get("neutral") else "")
 
 
 def _text(value: Any) -> str:

@@ -276,3 +276,28 @@ def _uncertainty_block(quantity: str, u: Mapping[str, Any]) -> dict[str, Any]:
 def _unit_suffix(key: str) -> str:
     unit = unit_of(key)
     return f" ({unit})" if unit else ""
+
+
+_PHASE_QUANTITIES = (("no_load", "no-load", (("voltage_V", "U, V", "voltage_spread_pct"), ("current_A", "I, A", "current_spread_pct"))),
+                     ("load", "load loss", (("voltage_V", "U, V", None), ("current_A", "I, A", "current_spread_pct"),
+                                            ("impedance_star_ohm", "Z, ohm", "impedance_spread_pct"))))
+
+
+def phase_rows(phases: Mapping[str, Any] | None) -> list[dict[str, Any]]:
+    """Rows of the per-phase table of a three-phase run: test, quantity, L1..L3, spread."""
+    rows: list[dict[str, Any]] = []
+    for key, test, quantities in _PHASE_QUANTITIES:
+        section = (phases or {}).get(key)
+        if not section:
+            continue
+        for name, label, spread in quantities:
+            values = section.get(name)
+            if isinstance(values, list) and len(values) == 3:
+                rows.append({"test": test, "quantity": label, "cells": [_scalar_text(v) for v in values],
+                             "spread": _scalar_text(section.get(spread)) if spread else ""})
+    return rows
+
+
+def phase_notes(phases: Mapping[str, Any] | None) -> list[str]:
+    note = ((phases or {}).get("no_load") or {}).get("note")
+    return [note] if note else []

@@ -80,9 +80,9 @@ def unit_of(sequence: dict[str, Any]) -> dict[str, Any]:
     except ValueError:
         return dict(sequence.get("unit") or {})
     unit = {"rated_power_VA": t.rated_power, "phases": t.phases, "frequency_Hz": t.frequency,
-            "winding_material": t.winding_material,
-            "hv": {"rated_voltage_V": t.hv.rated_voltage, "connection": t.hv.connection},
-            "lv": {"rated_voltage_V": t.lv.rated_voltage, "connection": t.lv.connection}}
+            "winding_material": t.winding_material, "vector_group": t.vector_group,
+            **{w: {"rated_voltage_V": getattr(t, w).rated_voltage, "connection": getattr(t, w).connection,
+                   "neutral": getattr(t, w).neutral} for w in ("hv", "lv")}}
     return {**unit, **(sequence.get("unit") or {})}
 
 

@@ -4,11 +4,36 @@ The few things a script needs::
 
     from harness import Record, evaluate, load_record
     results = evaluate(load_record("readings.yaml")).to_dict()
+
+The names are imported on first use: a command that never evaluates (``harness --help``,
+``harness runs``) does not pay for the calculation core, pydantic or pint at start-up.
 """
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any
 
 __version__ = "0.1.0"
 
-from harness.calc import Record, Results, evaluate, load_record  # noqa: E402
-from harness.common.errors import HarnessError, InputError  # noqa: E402
+_LAZY = {"Record": "harness.calc", "Results": "harness.calc", "evaluate": "harness.calc",
+         "load_record": "harness.calc", "HarnessError": "harness.common.errors", "InputError": "harness.common.errors"}
+
+if TYPE_CHECKING:
+    from harness.calc import Record, Results, evaluate, load_record
+    from harness.common.errors import HarnessError, InputError
+
+
+def __getattr__(name: str) -> Any:
+    if name not in _LAZY:
+        raise AttributeError(f"module 'harness' has no attribute {name!r}")
+    import importlib
+    value = getattr(importlib.import_module(_LAZY[name]), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted([*globals(), *_LAZY])
+
 
 __all__ = sorted(["HarnessError", "InputError", "Record", "Results", "__version__", "evaluate", "load_record"])

@@ -2,18 +2,26 @@
 
 One pint registry for the product. A plain number is taken as already in the field's unit
 (SI: V, A, W, VA, Hz, ohm, s, rad; temperatures in degC, percentages in %).
+
+pint is imported, and its registry built, only when the first string with units is read (a plain
+number never needs it), and the registry's parsed definitions are kept in pint's own cache folder
+(``HARNESS_UNIT_CACHE``, or the user's cache folder; ``none`` turns the cache off): building the
+registry from its definitions file costs about ten times as much as loading the cached one.
 """
 
 from __future__ import annotations
 
 import math
+import os
 from functools import lru_cache
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
-import pint
 from pydantic import BeforeValidator, PlainSerializer, WithJsonSchema
 
-UREG = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+if TYPE_CHECKING:
+    import pint
+
+CACHE_ENV = "HARNESS_UNIT_CACHE"
 
 # What each field unit accepts, with a word for error messages. Angles and percentages are
 # both dimensionless to pint, so they are told apart by the units allowed.
@@ -27,13 +35,35 @@ _ANGLE_UNITS = {"radian", "milliradian", "microradian", "centiradian", "degree",
 _RATIO_UNITS = {"percent", "ppm", "permille", "dimensionless"}
 
 
+@lru_cache(maxsize=1)
+def registry() -> pint.UnitRegistry:
+    """The product's one unit registry, built on first use from pint's cache when it can be."""
+    import pint
+
+    folder = os.environ.get(CACHE_ENV) or ":auto:"
+    options: dict[str, Any] = {"autoconvert_offset_to_baseunit": True}
+    if folder.lower() != "none":
+        options["cache_folder"] = folder
+    try:
+        return pint.UnitRegistry(**options)
+    except OSError:  # an unwritable cache folder: build it from the definitions instead
+        options.pop("cache_folder", None)
+        return pint.UnitRegistry(**options)
+
+
+def __getattr__(name: str) -> Any:
+    if name == "UREG":  # the registry under its former module-level name
+        return registry()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
 def _unit_names(q: pint.Quantity) -> set[str]:
     return {str(name) for name in q.unit_items() for name in [name[0]]} or {"dimensionless"}
 
 
 @lru_cache(maxsize=4096)
 def _parse(text: str) -> pint.Quantity:
-    return UREG.Quantity(text)
+    return registry().Quantity(text)
 
 
 def to_si(value: Any, unit: str) -> float:
@@ -47,6 +77,8 @@ def to_si(value: Any, unit: str) -> float:
     if isinstance(value, (int, float)):
         number = float(value)
     elif isinstance(value, str):
+        import pint
+
         try:
             q = _parse(value.strip())
         except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError, KeyError, IndexError) as exc:

@@ -48,13 +48,20 @@ def require_pyarrow() -> Any:
     return pq
 
 
-def write_parquet(columns: dict[str, np.ndarray], path: Path) -> Path:
+def write_parquet(chunks: Iterable[dict[str, np.ndarray]], path: Path) -> Path:
+    """Write chunks of sample columns (see ``Store.sample_chunks``) as one Parquet file, one row
+    group per chunk; a run without samples gets a file with the columns and no rows."""
     pq = require_pyarrow()
     import pyarrow as pa
 
-    table = pa.table({name: columns[key] for name, key in zip(EXPORT_NAMES, SAMPLE_COLUMNS)})
+    # One schema for every chunk: a chunk whose tags are all absent must not make the column null.
+    kinds = {"id": pa.int64(), "step_index": pa.int64(), "channel": pa.int64(), "tag": pa.string()}
+    schema = pa.schema([(name, kinds.get(key, pa.float64())) for name, key in zip(EXPORT_NAMES, SAMPLE_COLUMNS)])
     try:
-        pq.write_table(table, path)
+        with pq.ParquetWriter(path, schema) as writer:
+            for columns in chunks:
+                writer.write_table(pa.table({name: pa.array(columns[key], type=schema.field(name).type)
+                                             for name, key in zip(EXPORT_NAMES, SAMPLE_COLUMNS)}, schema=schema))
     except OSError as exc:
         raise StoreError(f"cannot write {path}: {exc}") from exc
     return path

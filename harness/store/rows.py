@@ -127,6 +127,8 @@ def sample_columns(rows: list[tuple[Any, ...]], names: tuple[str, ...] = SAMPLE_
              for i, name in enumerate(names) if _SAMPLE_DTYPES.get(name) is object}
     if len(numeric) == len(names):
         block = np.array(rows, dtype=float)
+    elif numeric == list(range(len(numeric))):  # the text columns last, as in SAMPLE_COLUMNS
+        block = np.array(list(map(operator.itemgetter(slice(0, len(numeric))), rows)), dtype=float)
     else:
         block = np.array([tuple(row[i] for i in numeric) for row in rows], dtype=float)
     columns: dict[str, np.ndarray] = {}

@@ -41,7 +41,7 @@ _INSERT_RUN = ("INSERT INTO runs (run_id, status, started, pid, host, process_to
 _INSERT_READING = ("INSERT INTO readings (run_id, step_index, tag, channel, first_id, last_id, count, stable, "
                    + ", ".join(rows.READING_STATS) + ") VALUES (:run_id, :step_index, :tag, :channel, :first_id, "
                    ":last_id, :count, :stable, " + ", ".join(f":{n}" for n in rows.READING_STATS) + ")")
-SAMPLE_CHUNK = 65_536  # rows per read: about 6 MB of numpy columns
+SAMPLE_CHUNK = 16_384  # rows per read: about 1.5 MB of numpy columns, 6 MB of rows
 _JSON_FIELDS = ("simulated", "trip", "record", "results")
 _RUN_OF_ROW = operator.itemgetter(0)
 
@@ -277,7 +277,7 @@ class Store:
         held while the caller works on a chunk, and memory stays bounded whatever the run's size.
         """
         names = rows.sample_column_names(columns)
-        for page in self._sample_pages(run_id, names, chunk):
+        for page in self.sample_pages(run_id, names, chunk):
             yield rows.sample_columns(page, names)
 
     def sample_counts(self, run_id: str) -> dict[int, int]:
@@ -288,13 +288,18 @@ class Store:
                             (run_id,))
         return {r["step_index"]: r["n"] for r in found}
 
-    def _sample_pages(self, run_id: str, names: tuple[str, ...], chunk: int) -> Iterator[list[tuple[Any, ...]]]:
-        """Pages of sample rows (``names`` first, the id last), committed ones only, in id order."""
+    def sample_pages(self, run_id: str, columns: Iterable[str] | None = None,
+                     chunk: int = SAMPLE_CHUNK) -> Iterator[list[tuple[Any, ...]]]:
+        """The run's raw samples as rows of ``columns`` (all of rows.SAMPLE_COLUMNS by default),
+        ``chunk`` rows at a time in id order, as :meth:`sample_chunks` reads them."""
+        names = rows.sample_column_names(columns)
         if type(chunk) is not int or chunk < 1:
             raise StoreError(f"a chunk is a whole number of rows >= 1, got {chunk!r}")
         run_id = self.resolve(run_id)
         self.flush()
-        sql = (f"SELECT {', '.join(names)}, id FROM samples WHERE run_id = ? AND id > ? ORDER BY id LIMIT ?")
+        key = names.index("id") if "id" in names else len(names)
+        sql = (f"SELECT {', '.join(names)}{'' if 'id' in names else ', id'} FROM samples "
+               "WHERE run_id = ? AND id > ? ORDER BY id LIMIT ?")
         last = -1
         while True:
             with self._lock:
@@ -303,8 +308,8 @@ class Store:
                 page = self._conn.execute(sql, (run_id, last, chunk)).fetchall()
             if not page:
                 return
-            last = page[-1][-1]
-            yield page
+            last = page[-1][key]
+            yield page if key < len(names) else [row[:-1] for row in page]
             if len(page) < chunk:
                 return
 
@@ -330,8 +335,7 @@ class Store:
         a chunk at a time."""
         run_id = self.resolve(run_id)
         target = export.target(path, run_id, "csv")
-        pages = self._sample_pages(run_id, rows.SAMPLE_COLUMNS, SAMPLE_CHUNK)
-        return export.write_csv((row[:-1] for page in pages for row in page), target)
+        return export.write_csv((row for page in self.sample_pages(run_id) for row in page), target)
 
     def export_parquet(self, run_id: str, path: str | Path) -> Path:
         """Write the run's raw samples as Parquet, streamed a chunk at a time; needs pyarrow."""

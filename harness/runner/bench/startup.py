@@ -2,19 +2,17 @@
 
 Each command is run as its own process several times, the commands taking turns so that a drift
 of the machine's speed weighs on all alike; the CPU seconds of each finished child come from the
-operating system's accounting (``resource.getrusage(RUSAGE_CHILDREN)``). Medians are reported.
+operating system's accounting (``wait4``). Medians are reported.
 """
 
 from __future__ import annotations
 
-import os
-import resource
 import statistics
-import subprocess
 import sys
-import time
 from pathlib import Path
 from typing import Any
+
+from harness.runner.bench.children import run_child
 
 ROUNDS = 5
 CHECK_SEQUENCE = "routine_single_phase.yaml"
@@ -31,15 +29,8 @@ def examples_folder() -> Path:
 
 
 def _child(argv: list[str]) -> tuple[float, float]:
-    """CPU seconds (user + system) and wall seconds of one finished child process."""
-    before = resource.getrusage(resource.RUSAGE_CHILDREN)
-    start = time.perf_counter()
-    done = subprocess.run(argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True, env=os.environ.copy())
-    wall = time.perf_counter() - start
-    after = resource.getrusage(resource.RUSAGE_CHILDREN)
-    if done.returncode != 0:
-        raise RuntimeError(f"{' '.join(argv[1:])} exited {done.returncode}: {done.stderr.strip()[-400:]}")
-    return (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime), wall
+    cost = run_child(argv)
+    return cost.cpu_s, cost.wall_s
 
 
 def bench_startup(rounds: int = ROUNDS) -> dict[str, Any]:

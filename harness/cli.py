@@ -121,15 +121,21 @@ def cmd_run(args: argparse.Namespace) -> int:
 
     options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes, quiet=args.json)
     _check_faults(options)
+    from harness.runner.reporting import hand_back
     store = Store()
     try:
         outcome = execute(options, store)
+        if args.json:  # a script reads the report's path: the report exists when the document arrives
+            note = hand_back(store, outcome, interactive=False)
+            if outcome.report is None:
+                print(f"harness: {note}", file=sys.stderr)
+            _emit(outcome.as_dict())
+        else:  # the operator sees the outcome as soon as the bay is safe; the report follows
+            print_outcome(outcome)
+            sys.stdout.flush()
+            print(f"  {hand_back(store, outcome, interactive=True)}")
     finally:
         store.close()
-    if args.json:
-        _emit(outcome.as_dict())
-    else:
-        print_outcome(outcome)
     return outcome.exit_code
 
 

@@ -178,3 +178,25 @@ def write_evaluation_report(path: Path, record: Any, results: Any, html: Path) -
     if Path(paths["html"]) != html:
         Path(paths["html"]).replace(html)
     return html
+
+
+STOPPED = ("tripped", "aborted", "unsafe")
+
+
+def hand_back(store: Any, outcome: Any, *, interactive: bool) -> str:
+    """Write the run's report after its outcome was shown; one line for the operator.
+
+    At a terminal, a run that stopped (trip, Ctrl-C, not confirmed safe) hands the prompt back at
+    once: its report is left to ``harness report RUN_ID``, which builds the same report from the
+    store, because writing it costs seconds (the plotting library alone takes over a second to
+    load) that an operator dealing with a stop should not wait for. A completed run, and every run
+    for a script (``--json``), gets its report now. Ctrl-C while it is written stops only the
+    report; the run itself is complete in the store.
+    """
+    if interactive and outcome.status in STOPPED:
+        return f"report: not written yet; `harness report {outcome.run_id}` writes it"
+    try:
+        outcome.report = str(write_run_reports(store, outcome.run_id))
+    except KeyboardInterrupt:
+        return f"report: interrupted; `harness report {outcome.run_id}` writes it"
+    return f"report: {outcome.report}"

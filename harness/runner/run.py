@@ -200,7 +200,6 @@ def _finish(store: Any, run_id: str, status: str, trip: dict[str, Any] | None, r
             results: dict[str, Any] | None, safe: dict[str, Any] | None, warnings: list[str]) -> RunOutcome:
     exit_code = EXIT[status]
     store.finish_run(run_id, status, exit_code, trip, record, results)
-    from harness.runner.reporting import write_run_reports
-    report = write_run_reports(store, run_id)
-    return RunOutcome(run_id, status, exit_code, trip, results, str(report) if report else None,
+    # No report here: the caller shows the outcome first, then writes it (runner.reporting.hand_back).
+    return RunOutcome(run_id, status, exit_code, trip, results, None,
                       str(store.path), str(store.run_folder(run_id)), safe, warnings, store.run(run_id)["samples"])

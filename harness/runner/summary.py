@@ -24,5 +24,6 @@ def print_outcome(outcome: RunOutcome) -> None:
         from harness.calc.table import render_results_dict
         render_results_dict(outcome.results, console)
     console.print(f"  samples kept: {outcome.samples}")
-    console.print(f"  report: {outcome.report}")
+    if outcome.report:
+        console.print(f"  report: {outcome.report}")
     console.print(f"  store:  {outcome.database}")

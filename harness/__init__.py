@@ -11,7 +11,9 @@ The names are imported on first use: a command that never evaluates (``harness -
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
+
+from harness.common.lazy import lazy_names
 
 __version__ = "0.1.0"
 
@@ -23,17 +25,11 @@ if TYPE_CHECKING:
     from harness.common.errors import HarnessError, InputError
 
 
-def __getattr__(name: str) -> Any:
-    if name not in _LAZY:
-        raise AttributeError(f"module 'harness' has no attribute {name!r}")
-    import importlib
-    value = getattr(importlib.import_module(_LAZY[name]), name)
-    globals()[name] = value
-    return value
+__getattr__ = lazy_names("harness", _LAZY, globals())
 
 
 def __dir__() -> list[str]:
-    return sorted([*globals(), *_LAZY])
+    return sorted({*globals(), *_LAZY})
 
 
-__all__ = sorted(["HarnessError", "InputError", "Record", "Results", "__version__", "evaluate", "load_record"])
+__all__ = ["HarnessError", "InputError", "Record", "Results", "__version__", "evaluate", "load_record"]

@@ -6,8 +6,9 @@ use, so reading a record's model (``harness check``) does not load the whole eva
 
 from __future__ import annotations
 
-import importlib
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
+
+from harness.common.lazy import lazy_names
 
 _LAZY = {"evaluate": "harness.calc.evaluate", "Record": "harness.calc.record",
          "load_record": "harness.calc.record", "Results": "harness.calc.results"}
@@ -18,12 +19,7 @@ if TYPE_CHECKING:
     from harness.calc.results import Results
 
 
-def __getattr__(name: str) -> Any:
-    if name not in _LAZY:
-        raise AttributeError(f"module 'harness.calc' has no attribute {name!r}")
-    value = getattr(importlib.import_module(_LAZY[name]), name)
-    globals()[name] = value
-    return value
+__getattr__ = lazy_names("harness.calc", _LAZY, globals())
 
 
 __all__ = ["Record", "Results", "evaluate", "load_record"]

@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import contextlib
 import math
-import statistics
 import tempfile
 from pathlib import Path
 from typing import Any, Iterator

@@ -16,7 +16,6 @@ The ratio says how much longer the bay stayed live than that; the goal is at mos
 
 from __future__ import annotations
 
-import statistics
 import tempfile
 from pathlib import Path
 from typing import Any

@@ -7,12 +7,18 @@ pint is imported, and its registry built, only when the first string with units 
 number never needs it), and the registry's parsed definitions are kept in pint's own cache folder
 (``HARNESS_UNIT_CACHE``, or the user's cache folder; ``none`` turns the cache off): building the
 registry from its definitions file costs about ten times as much as loading the cached one.
+
+The common case - a number with the field's own unit, that unit with an SI prefix (``6.6 kV``,
+``50 kVA``, ``4 %``), or minutes and hours for a time - is read without pint (``_plain``): that
+saves its import (about 0.2 s of CPU, with the optional packages it probes) for a command that
+only validates a sequence. Anything else goes to pint, which stays the one authority on units.
 """
 
 from __future__ import annotations
 
 import math
 import os
+import re
 from functools import lru_cache
 from typing import TYPE_CHECKING, Annotated, Any
 
@@ -22,6 +28,11 @@ if TYPE_CHECKING:
     import pint
 
 CACHE_ENV = "HARNESS_UNIT_CACHE"
+
+_NUMBER_UNIT = re.compile(r"\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(\S*)\s*")
+_PREFIXES = {"": 1.0, "k": 1e3, "M": 1e6, "m": 1e-3, "u": 1e-6, "µ": 1e-6}
+_PREFIXED = {"V", "A", "W", "VA", "Hz", "ohm", "s"}  # units that take an SI prefix here
+_ALIASES = {"percent": {"%": 1.0}, "s": {"min": 60.0, "h": 3600.0}}
 
 # What each field unit accepts, with a word for error messages. Angles and percentages are
 # both dimensionless to pint, so they are told apart by the units allowed.
@@ -66,6 +77,21 @@ def _parse(text: str) -> pint.Quantity:
     return registry().Quantity(text)
 
 
+def _plain(text: str, unit: str) -> float | None:
+    """``text`` in ``unit`` when it is a number with that unit, an SI prefix of it or an alias
+    (see the module's note); None when pint must read it."""
+    found = _NUMBER_UNIT.fullmatch(text)
+    if found is None:
+        return None
+    number, written = found.groups()
+    if not written or written == unit:
+        return float(number)
+    factor = _ALIASES.get(unit, {}).get(written)
+    if factor is None and unit in _PREFIXED and written.endswith(unit):
+        factor = _PREFIXES.get(written[: -len(unit)])
+    return None if factor is None else float(number) * factor
+
+
 def to_si(value: Any, unit: str) -> float:
     """Convert ``value`` (a number or a string with units) to a float in ``unit``.
 
@@ -76,6 +102,8 @@ def to_si(value: Any, unit: str) -> float:
         raise ValueError(f"expected {kind} ({unit}), got {value!r}")
     if isinstance(value, (int, float)):
         number = float(value)
+    elif isinstance(value, str) and (plain := _plain(value, unit)) is not None:
+        number = plain
     elif isinstance(value, str):
         import pint
 

@@ -25,12 +25,13 @@ def test_a_number_with_the_fields_unit_reads_as_pint_reads_it(number, prefix, un
 
 
 @pytest.mark.parametrize(("text", "unit"), [("4 %", "percent"), ("30 min", "s"), ("2 h", "s"), ("25 degC", "degC"),
-                                            ("100 V/s", "V/s"), ("5 K", "K"), (".5 kV", "V")])
+                                            ("100 V/s", "V/s"), ("5 K", "K"), (".5 kV", "V"),
+                                            ("180 deg", "rad"), ("-37.5 deg", "rad"), ("16 kJ/K", "J/K")])
 def test_aliases_and_compound_units(text, unit):
     assert _plain(text, unit) == _pint(text, unit)
 
 
-@pytest.mark.parametrize(("text", "unit"), [("5 VA", "A"), ("5 K", "degC"), ("3 deg", "rad"), ("1 kW/s", "W"),
+@pytest.mark.parametrize(("text", "unit"), [("5 VA", "A"), ("5 K", "degC"), ("3 arcmin", "rad"), ("1 kW/s", "W"),
                                             ("inf V", "V"), ("6.6 kilovolt", "V"), ("5 V", "A")])
 def test_anything_else_is_left_to_pint(text, unit):
     assert _plain(text, unit) is None

@@ -47,12 +47,14 @@ def bench_sequence(sequence: Path | str, time_scale: float | None = None) -> dic
     stretches = _energised(events)
     floor = 0.0
     parts: dict[str, float] = {"slew_s": 0.0, "windows_s": 0.0, "confirmations_s": 0.0}
+    by_step: dict[str, dict[str, float]] = {}  # where the time above the least goes
     for begin, end in stretches:
         level = 0.0
         for st in steps:
             start = _step_start(events, st["step_index"])
             if start is None or not (_step_end(events, start) > begin and start < end):
                 continue  # the step did not overlap this energised stretch
+            least_before = sum(parts.values())
             step = by_name.get((st["kind"], st["name"]))
             if st["kind"] == "ramp":
                 mine = samples["u_rms"][samples["step_index"] == st["step_index"]]
@@ -70,11 +72,15 @@ def bench_sequence(sequence: Path | str, time_scale: float | None = None) -> dic
                 parts["windows_s"] += step.readings * step.interval
             elif st["kind"] == "hold" and step is not None:
                 parts["windows_s"] += step.duration
+            live = min(_step_end(events, start), end) - max(start, begin)
+            by_step[f"{st['step_index'] + 1}: {st['name']}"] = {
+                "bay_s": round(live, 3), "least_s": round(sum(parts.values()) - least_before, 3)}
         parts["confirmations_s"] += update
     floor = sum(parts.values())
     bay = sum(end - begin for begin, end in stretches)
     return {"bay_s": round(bay, 3), "floor_s": round(floor, 3), "ratio": round(bay / floor, 3) if floor else None,
-            "floor_parts": {k: round(v, 3) for k, v in parts.items()}, "energised_stretches": len(stretches),
+            "floor_parts": {k: round(v, 3) for k, v in parts.items()}, "by_step": by_step,
+            "energised_stretches": len(stretches),
             "sequence": str(sequence), "time_scale": outcome_scale(options), "target_ratio": TARGET_RATIO}
 
 

@@ -31,6 +31,16 @@ def _scale(text: str) -> float:
     return value
 
 
+def _count(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from exc
+    if not 1 <= value <= 100_000_000:
+        raise argparse.ArgumentTypeError("give a whole number from 1 to 100000000")
+    return value
+
+
 def _parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="harness", description="Transformer no-load and load-loss test harness.")
     sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
@@ -75,8 +85,10 @@ def _parser() -> argparse.ArgumentParser:
     truth.add_argument("scenario", nargs="?", default="default")
     truth.add_argument("--json", action="store_true")
 
-    bench = sub.add_parser("bench", help="benchmarks on the simulated bay")
-    bench.add_argument("which", choices=["overhead", "ramp", "reduce", "store"])
+    bench = sub.add_parser("bench", help="benchmarks: each prints its figures against its goal")
+    bench.add_argument("which", choices=["startup", "report", "overhead", "ramp", "sequence", "reduce", "store"])
+    bench.add_argument("sequence", nargs="?", type=Path, help="the sequence (bench sequence)")
+    bench.add_argument("--samples", type=_count, metavar="N", help="raw samples in the run (bench report)")
     bench.add_argument("--json", action="store_true")
     return p
 
@@ -110,8 +122,11 @@ def cmd_run(args: argparse.Namespace) -> int:
     from harness.runner.summary import print_outcome
     from harness.store import Store
 
-    options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes, quiet=args.json)
+    # At a terminal, a run that stopped shows its outcome at once; its report follows in the background.
+    options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes,
+                         quiet=args.json, defer_stopped_report=not args.json)
     _check_faults(options)
+    from harness.runner.reporting import write_in_background
     store = Store()
     # From here until the outcome is printed, a stop signal stops only the steps: it can never
     # cut the safe state, the run's record or its report short, nor change a finished run's exit code.
@@ -124,6 +139,9 @@ def cmd_run(args: argparse.Namespace) -> int:
             _emit(outcome.as_dict())
         else:
             print_outcome(outcome)
+            if outcome.report is None and outcome.journal is None:
+                report, _ = write_in_background(store, outcome.run_id)
+                print(f"  report: being written to {report} (in the background)")
     return outcome.exit_code
 
 
@@ -239,8 +257,14 @@ def cmd_sim(args: argparse.Namespace) -> int:
 
 
 def cmd_bench(args: argparse.Namespace) -> int:
-    from harness.runner.bench import BENCHMARKS
-    figures = BENCHMARKS[args.which]()
+    from harness.runner.bench import run_benchmark
+    if args.which == "sequence" and args.sequence is None:
+        raise UsageError("bench sequence: give the sequence file, e.g. sequences/routine_single_phase.yaml")
+    if args.sequence is not None and args.which != "sequence":
+        raise UsageError(f"bench {args.which} takes no sequence file")
+    if args.samples is not None and args.which != "report":
+        raise UsageError("--samples is for bench report")
+    figures = run_benchmark(args.which, samples=args.samples, sequence=args.sequence)
     if args.json:
         _emit(figures)
     else:

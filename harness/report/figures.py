@@ -25,13 +25,13 @@ from matplotlib.backends.backend_svg import FigureCanvasSVG
 from matplotlib.figure import Figure
 
 from harness.report import fmt
+from harness.report.decimate import decimate
 
 # Okabe-Ito palette: distinguishable with the common colour-vision deficiencies.
 COLOURS = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#000000")
 MARKERS = ("o", "s", "^", "D", "v", "P", "X")
 LINESTYLES = ("-", "--", "-.", ":", (0, (5, 1, 1, 1)), (0, (3, 1)), (0, (1, 2)))
 LIMIT_COLOUR = "#B00000"
-MAX_TRACE_POINTS = 1500
 
 _RC = {
     "svg.fonttype": "none",
@@ -172,24 +172,6 @@ def trace_figure(trace: Mapping[str, Any], index: int, trip: Mapping[str, Any] |
             _draw_trip(ax, trace, trip)
         axes[-1].set_xlabel("time (s)")
     return to_svg(fig, f"fig-trace-{index}")
-
-
-def decimate(t: list[float], y: list[float], points: int = MAX_TRACE_POINTS) -> tuple[list[float], list[float]]:
-    """At most about ``points`` points, keeping each bucket's lowest and highest sample.
-
-    A long ramp would otherwise make a heavy page; keeping the extremes keeps a spike (the one that
-    tripped the run) visible where plain thinning could drop it.
-    """
-    if len(t) <= points:
-        return t, y
-    size = math.ceil(len(t) / (points // 2))
-    keep: set[int] = {0, len(t) - 1}
-    for start in range(0, len(t), size):
-        bucket = [i for i in range(start, min(start + size, len(t))) if not math.isnan(y[i])]
-        if bucket:
-            keep.update((min(bucket, key=y.__getitem__), max(bucket, key=y.__getitem__)))
-    order = sorted(keep)
-    return [t[i] for i in order], [y[i] for i in order]
 
 
 def _draw_limit(ax: Axes, limit: Any, unit: str) -> None:

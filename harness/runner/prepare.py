@@ -27,6 +27,8 @@ class RunOptions:
     time_scale: float | None = None
     yes: bool = False
     quiet: bool = False
+    defer_stopped_report: bool = False
+    """A run that stopped hands the prompt back at once and leaves its report to the caller."""
 
 
 @dataclass

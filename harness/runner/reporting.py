@@ -2,42 +2,69 @@
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import importlib.util
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import yaml
 
 from harness.report import ReportBundle, write_reports
+from harness.report.decimate import TraceThinner
 
 TRACE_KINDS = ("ramp", "sweep", "hold", "measure", "wait")
+_TRACE_KEYS = ("u_rms", "i_rms", "p")
 
 
 def write_run_reports(store: Any, run_id: str) -> Path:
-    """Write report.html, results.json and samples.csv into the run's folder; the report's path."""
+    """Write report.html, results.json and samples.csv (and samples.parquet when pyarrow is
+    installed) into the run's folder; the report's path.
+
+    The raw samples are read once, a chunk at a time: each chunk goes to the CSV and Parquet
+    files and to the figures' thinning, so memory stays bounded whatever the run's length.
+    """
+    from harness.store import rows
+    from harness.store.export import CsvSamples, ParquetSamples
+
     folder = store.run_folder(run_id)
-    bundle = run_bundle(store, run_id)
-    paths = write_reports(folder, bundle)
-    store.export_csv(run_id, folder / "samples.csv")
-    if importlib.util.find_spec("pyarrow") is not None:
-        store.export_parquet(run_id, folder / "samples.parquet")
+    row = store.run(run_id)  # the run with its steps, events, instruments and readings
+    thinners = _thinners(row["steps"], store.sample_counts(run_id))
+    with contextlib.ExitStack() as files:
+        csv_file = files.enter_context(CsvSamples(folder / "samples.csv"))
+        parquet = None
+        if importlib.util.find_spec("pyarrow") is not None:
+            parquet = files.enter_context(ParquetSamples(folder / "samples.parquet"))
+        for page in store.sample_pages(run_id):
+            csv_file.add(page)
+            columns = rows.sample_columns(page)
+            if parquet is not None:
+                parquet.add(columns)
+            _thin(thinners, columns)
+    paths = write_reports(folder, run_bundle(store, run_id, row, thinners))
     return Path(paths["html"])
 
 
-def run_bundle(store: Any, run_id: str) -> ReportBundle:
-    row = store.run(run_id)  # the run with its steps, events, instruments and readings
+def run_bundle(store: Any, run_id: str, row: dict[str, Any] | None = None,
+               thinners: dict[int, TraceThinner] | None = None) -> ReportBundle:
+    """The report's content; the traces from ``thinners`` already fed, or read from the store."""
+    row = row or store.run(run_id)
     sequence = _yaml(row.get("sequence_text"))
     events, steps = row["events"], row["steps"]
     results = row.get("results") or {}
     labels = {st["step_index"]: f"{st['step_index'] + 1}: {st['name']}" for st in steps}
+    if thinners is None:
+        thinners = _thinners(steps, store.sample_counts(run_id))
+        for columns in store.sample_chunks(run_id, ("step_index", "t", *_TRACE_KEYS)):
+            _thin(thinners, columns)
     return ReportBundle(
         run=_run_meta(row, sequence),
         unit=unit_of(sequence),
         instruments=[_instrument(i) for i in row["instruments"]],
         results=results,
         readings=[_reading(r, labels) for r in row["readings"]],
-        traces=_traces(store.samples(run_id), steps, events, labels),
+        traces=_traces(thinners, steps, events, labels),
         sweep=list(results.get("sweep", [])),
         events=[_event(e) for e in events if e["kind"] not in ("step-start", "step-end")],
         warnings=list(results.get("warnings", [])) or [e["text"] for e in events if e["kind"] == "warning"],
@@ -98,25 +125,35 @@ def _reading(row: dict[str, Any], labels: dict[int, str]) -> dict[str, Any]:
             "std": {q: row.get(f"{q}_std") for q in quantities}, "stable": bool(row["stable"])}
 
 
-def _traces(samples: dict[str, Any], steps: list[dict[str, Any]], events: list[dict[str, Any]],
+def _thinners(steps: list[dict[str, Any]], counts: dict[int, int]) -> dict[int, TraceThinner]:
+    """One thinner for each step that draws a trace and has samples."""
+    return {st["step_index"]: TraceThinner(counts[st["step_index"]], _TRACE_KEYS, "t")
+            for st in steps if st["kind"] in TRACE_KINDS and counts.get(st["step_index"])}
+
+
+def _thin(thinners: dict[int, TraceThinner], columns: dict[str, np.ndarray]) -> None:
+    """Feed one chunk of samples to the thinners of the steps it holds."""
+    index = columns["step_index"]
+    if not len(index) or not thinners:
+        return
+    # a step's samples are consecutive: cut the chunk where the step changes
+    cuts = [0, *(np.flatnonzero(index[1:] != index[:-1]) + 1).tolist(), len(index)]
+    for a, b in zip(cuts[:-1], cuts[1:]):
+        thinner = thinners.get(int(index[a]))
+        if thinner is not None:
+            thinner.add({k: columns[k][a:b] for k in ("t", *_TRACE_KEYS)})
+
+
+def _traces(thinners: dict[int, TraceThinner], steps: list[dict[str, Any]], events: list[dict[str, Any]],
             labels: dict[int, str]) -> list[dict[str, Any]]:
     limits = {e["data"]["step"]: e["data"]["limits"] for e in events
               if e["kind"] == "step-start" and isinstance(e.get("data"), dict)}
+    kinds = {st["step_index"]: st["kind"] for st in steps}
     traces = []
-    index = samples.get("step_index")
-    if index is None or len(index) == 0:
-        return traces
-    for step in steps:
-        n = step["step_index"]
-        if step["kind"] not in TRACE_KINDS:
-            continue
-        mask = index == n
-        if not mask.any():
-            continue
-        traces.append({"step": labels[n], "tag": step["kind"],
-                       "t_s": samples["t"][mask].tolist(), "u_V": samples["u_rms"][mask].tolist(),
-                       "i_A": samples["i_rms"][mask].tolist(), "p_W": samples["p"][mask].tolist(),
-                       "limits": limits.get(n, {})})
+    for n, thinner in thinners.items():
+        kept = thinner.result()
+        traces.append({"step": labels[n], "tag": kinds[n], "t_s": kept["t"].tolist(), "u_V": kept["u_rms"].tolist(),
+                       "i_A": kept["i_rms"].tolist(), "p_W": kept["p"].tolist(), "limits": limits.get(n, {})})
     return traces
 
 
@@ -141,3 +178,25 @@ def write_evaluation_report(path: Path, record: Any, results: Any, html: Path) -
     if Path(paths["html"]) != html:
         Path(paths["html"]).replace(html)
     return html
+
+
+def write_in_background(store: Any, run_id: str) -> tuple[Path, Any]:
+    """Start ``harness report RUN_ID`` as a process of its own, detached from the terminal; where
+    its report will be, and the process.
+
+    A run that stopped (a trip, Ctrl-C, de-energisation not confirmed) hands the operator the
+    outcome and the prompt at once, since writing the report costs seconds (the plotting library
+    alone takes over a second to load); the report is still always written, from the store,
+    by this process, which a further Ctrl-C at the terminal does not reach. Its messages go to
+    ``report.log`` in the run's folder.
+    """
+    import os
+    import subprocess
+    import sys
+
+    folder = store.run_folder(run_id)
+    with open(folder / "report.log", "w", encoding="utf-8") as log:
+        process = subprocess.Popen([sys.executable, "-m", "harness.cli", "report", run_id], stdin=subprocess.DEVNULL,
+                                   stdout=log, stderr=log, start_new_session=True,
+                                   env={**os.environ, "HARNESS_DATA": str(store.folder)})
+    return folder / "report.html", process

@@ -30,6 +30,7 @@ from harness.runner.steps.prompt import OperatorAbort
 from harness.safety import SafeOutcome, Trip
 
 EXIT = {"passed": 0, "failed": 1, "tripped": 3, "aborted": 4, "unsafe": 5}
+STOPPED = ("tripped", "aborted", "unsafe")
 DEFAULT_SIM_TIME_SCALE = 20.0
 WATCHDOG_FLOOR_REAL_S = 3.0  # the source's watchdog never fires on a host stall shorter than this
 
@@ -98,9 +99,10 @@ def _run_on_bay(run_id: str, prepared: Prepared, station: Station, clock: Clock,
             bay = open_bay(station, phases=prepared.sequence.transformer.phases)
     except InstrumentError as exc:
         trip = Trip(f"instrument fault before energising: {exc}").as_dict()
-        return _finish(recorder, run_id, "tripped", trip, None, None, never, [], signals)
+        return _finish(recorder, run_id, "tripped", trip, None, None, never, [], signals, options.defer_stopped_report)
     except (KeyboardInterrupt, Terminated) as exc:
-        return _finish(recorder, run_id, "aborted", None, None, None, never, [f"{exc or 'interrupted by Ctrl-C'}"], signals)
+        return _finish(recorder, run_id, "aborted", None, None, None, never, [f"{exc or 'interrupted by Ctrl-C'}"],
+                       signals, options.defer_stopped_report)
     recorder.set_instruments(run_id, bay.identities)
     run = Run(run_id, prepared.sequence, station, clock, bay, recorder, progress, yes=options.yes)
     try:
@@ -116,7 +118,8 @@ def _run_on_bay(run_id: str, prepared: Prepared, station: Station, clock: Clock,
     record, results, status, trip = _evaluate(run, status, trip)
     if status == "passed" and results and not all(c["passed"] for c in results.get("checks", []) + results.get("compliance", [])):
         status = "failed"
-    return _finish(recorder, run_id, status, trip, record, results, safe.as_dict(), run.warnings, signals)
+    return _finish(recorder, run_id, status, trip, record, results, safe.as_dict(), run.warnings, signals,
+                   options.defer_stopped_report)
 
 
 def _steps(run: Run, signals: StopSignals) -> tuple[str, dict[str, Any] | None]:
@@ -217,12 +220,13 @@ def _final_safe_state(run: Run, signals: StopSignals) -> SafeOutcome:
 
 def _finish(recorder: Recorder, run_id: str, status: str, trip: dict[str, Any] | None, record: dict[str, Any] | None,
             results: dict[str, Any] | None, safe: dict[str, Any] | None, warnings: list[str],
-            signals: StopSignals) -> RunOutcome:
+            signals: StopSignals, defer_report: bool = False) -> RunOutcome:
     """Record the run's end and write its report; a report that cannot be written ends the run as
-    tripped, so the exit code, the store and the report always agree."""
+    tripped, so the exit code, the store and the report always agree. ``defer_report``: a run that
+    stopped leaves its report to the caller (written after the outcome is shown, see the CLI)."""
     recorder.finish_run(run_id, status, EXIT[status], trip, record, results)
     report = None
-    if not recorder.failed:
+    if not recorder.failed and not (defer_report and status in STOPPED):
         report, status, trip = _report(recorder, run_id, status, trip)
     notes = [recorder.where()] if recorder.failed else []
     if signals.held_after_steps:

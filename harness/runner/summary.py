@@ -28,5 +28,6 @@ def print_outcome(outcome: RunOutcome) -> None:
     console.print(f"  samples kept: {outcome.samples}")
     if outcome.journal:
         console.print(f"  [bold]journal:[/] {outcome.journal}  (what the store could not take)")
-    console.print(f"  report: {outcome.report}")
+    if outcome.report:
+        console.print(f"  report: {outcome.report}")
     console.print(f"  store:  {outcome.database}")

@@ -28,15 +28,40 @@ def target(path: str | Path, run_id: str, suffix: str) -> Path:
 
 
 def write_csv(rows: Iterable[tuple[Any, ...]], path: Path) -> Path:
-    # Floats are written by repr (shortest exact form); NULL (no value, or NaN) as an empty field.
-    try:
-        with path.open("w", newline="", encoding="utf-8") as handle:
-            writer = csv.writer(handle)
-            writer.writerow(EXPORT_NAMES)
-            writer.writerows(rows)
-    except OSError as exc:
-        raise StoreError(f"cannot write {path}: {exc.strerror or exc}") from exc
+    with CsvSamples(path) as sink:
+        sink.add(rows)
     return path
+
+
+class CsvSamples:
+    """A CSV file of raw samples written as the rows come (rows of SAMPLE_COLUMNS).
+
+    Floats are written by repr (shortest exact form); NULL (no value, or NaN) as an empty field.
+    """
+
+    def __init__(self, path: Path):
+        self.path = path
+        try:
+            self._handle = path.open("w", newline="", encoding="utf-8")
+            self._writer = csv.writer(self._handle)
+            self._writer.writerow(EXPORT_NAMES)
+        except OSError as exc:
+            raise StoreError(f"cannot write {path}: {exc.strerror or exc}") from exc
+
+    def add(self, rows: Iterable[tuple[Any, ...]]) -> None:
+        try:
+            self._writer.writerows(rows)
+        except OSError as exc:
+            raise StoreError(f"cannot write {self.path}: {exc.strerror or exc}") from exc
+
+    def close(self) -> None:
+        self._handle.close()
+
+    def __enter__(self) -> CsvSamples:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
 
 
 def require_pyarrow() -> Any:
@@ -48,13 +73,46 @@ def require_pyarrow() -> Any:
     return pq
 
 
-def write_parquet(columns: dict[str, np.ndarray], path: Path) -> Path:
-    pq = require_pyarrow()
-    import pyarrow as pa
-
-    table = pa.table({name: columns[key] for name, key in zip(EXPORT_NAMES, SAMPLE_COLUMNS)})
-    try:
-        pq.write_table(table, path)
-    except OSError as exc:
-        raise StoreError(f"cannot write {path}: {exc}") from exc
+def write_parquet(chunks: Iterable[dict[str, np.ndarray]], path: Path) -> Path:
+    """Write chunks of sample columns (see ``Store.sample_chunks``) as one Parquet file, one row
+    group per chunk; a run without samples gets a file with the columns and no rows."""
+    with ParquetSamples(path) as sink:
+        for columns in chunks:
+            sink.add(columns)
     return path
+
+
+class ParquetSamples:
+    """A Parquet file of raw samples written a chunk of numpy columns at a time (one row group
+    each); needs pyarrow."""
+
+    def __init__(self, path: Path):
+        pq = require_pyarrow()
+        import pyarrow as pa
+
+        self.path, self._pa = path, pa
+        # One schema for every chunk: a chunk whose tags are all absent must not make the column null.
+        kinds = {"id": pa.int64(), "step_index": pa.int64(), "channel": pa.int64(), "tag": pa.string()}
+        self._schema = pa.schema([(name, kinds.get(key, pa.float64())) for name, key in zip(EXPORT_NAMES, SAMPLE_COLUMNS)])
+        try:
+            self._writer = pq.ParquetWriter(path, self._schema)
+        except OSError as exc:
+            raise StoreError(f"cannot write {path}: {exc}") from exc
+
+    def add(self, columns: dict[str, np.ndarray]) -> None:
+        pa, schema = self._pa, self._schema
+        table = pa.table({name: pa.array(columns[key], type=schema.field(name).type)
+                          for name, key in zip(EXPORT_NAMES, SAMPLE_COLUMNS)}, schema=schema)
+        try:
+            self._writer.write_table(table)
+        except OSError as exc:
+            raise StoreError(f"cannot write {self.path}: {exc}") from exc
+
+    def close(self) -> None:
+        self._writer.close()
+
+    def __enter__(self) -> ParquetSamples:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()

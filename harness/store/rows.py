@@ -112,11 +112,44 @@ def dicts(cursor: sqlite3.Cursor) -> list[dict[str, Any]]:
     return [dict(zip(names, row)) for row in cursor]
 
 
-def sample_columns(rows: list[tuple[Any, ...]]) -> dict[str, np.ndarray]:
-    """Rows of SAMPLE_COLUMNS as one array per column (NULL -> NaN in float columns)."""
-    columns = list(zip(*rows)) if rows else [() for _ in SAMPLE_COLUMNS]
-    return {name: np.array(col, dtype=_SAMPLE_DTYPES.get(name, float))
-            for name, col in zip(SAMPLE_COLUMNS, columns)}
+def sample_columns(rows: list[tuple[Any, ...]], names: tuple[str, ...] = SAMPLE_COLUMNS) -> dict[str, np.ndarray]:
+    """Rows of ``names`` as one array per column (NULL -> NaN in float columns).
+
+    Called on one chunk of rows at a time (see ``Store.sample_chunks``): the rows of a whole run
+    are never held as Python tuples at once.
+    """
+    if not rows:
+        return {name: np.empty(0, dtype=_SAMPLE_DTYPES.get(name, float)) for name in names}
+    # One float array of the whole chunk (None -> NaN), then a column view per name: far cheaper
+    # than building each column from Python objects. The text column is taken apart on its own.
+    numeric = [i for i, name in enumerate(names) if _SAMPLE_DTYPES.get(name) is not object]
+    texts = {name: np.array([row[i] for row in rows], dtype=object)
+             for i, name in enumerate(names) if _SAMPLE_DTYPES.get(name) is object}
+    if len(numeric) == len(names):
+        block = np.array(rows, dtype=float)
+    elif numeric == list(range(len(numeric))):  # the text columns last, as in SAMPLE_COLUMNS
+        block = np.array(list(map(operator.itemgetter(slice(0, len(numeric))), rows)), dtype=float)
+    else:
+        block = np.array([tuple(row[i] for i in numeric) for row in rows], dtype=float)
+    columns: dict[str, np.ndarray] = {}
+    for j, i in enumerate(numeric):
+        name = names[i]
+        column = block[:, j]
+        columns[name] = column.astype(_SAMPLE_DTYPES[name]) if name in _SAMPLE_DTYPES else column.copy()
+    columns.update(texts)
+    return {name: columns[name] for name in names}
+
+
+def sample_column_names(names: Any) -> tuple[str, ...]:
+    """The asked-for sample columns, checked (None: all of them)."""
+    if names is None:
+        return SAMPLE_COLUMNS
+    chosen = tuple(names)
+    unknown = [n for n in chosen if n not in SAMPLE_COLUMNS]
+    if unknown or not chosen:
+        raise StoreError(f"unknown sample column(s) {', '.join(map(str, unknown)) or '(none given)'}; "
+                         f"known: {', '.join(SAMPLE_COLUMNS)}")
+    return chosen
 
 
 def instrument_row(run_id: str, item: Any) -> tuple[Any, ...]:

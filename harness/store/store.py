@@ -22,7 +22,7 @@ import threading
 import time
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any, Iterator
+from typing import Any, Iterable, Iterator
 
 import numpy as np
 
@@ -41,6 +41,7 @@ _INSERT_RUN = ("INSERT INTO runs (run_id, status, started, pid, host, process_to
 _INSERT_READING = ("INSERT INTO readings (run_id, step_index, tag, channel, first_id, last_id, count, stable, "
                    + ", ".join(rows.READING_STATS) + ") VALUES (:run_id, :step_index, :tag, :channel, :first_id, "
                    ":last_id, :count, :stable, " + ", ".join(f":{n}" for n in rows.READING_STATS) + ")")
+SAMPLE_CHUNK = 16_384  # rows per read: about 1.5 MB of numpy columns, 6 MB of rows
 _JSON_FIELDS = ("simulated", "trip", "record", "results")
 _RUN_OF_ROW = operator.itemgetter(0)
 
@@ -275,14 +276,58 @@ class Store:
         shown = ", ".join(found[:5]) + (", ..." if len(found) > 5 else "")
         raise AmbiguousRunError(f"'{key}' matches several runs ({shown}); give more of the run id")
 
-    def samples(self, run_id: str) -> dict[str, np.ndarray]:
-        """The run's raw samples, one array per column of rows.SAMPLE_COLUMNS, in id order."""
+    def samples(self, run_id: str, columns: Iterable[str] | None = None) -> dict[str, np.ndarray]:
+        """The run's raw samples, one array per column (all of rows.SAMPLE_COLUMNS, or those
+        asked for), in id order. A whole run in memory: a report reads :meth:`sample_chunks`."""
+        names = rows.sample_column_names(columns)
+        parts = list(self.sample_chunks(run_id, names))
+        if not parts:
+            return rows.sample_columns([], names)
+        return {name: np.concatenate([part[name] for part in parts]) for name in names}
+
+    def sample_chunks(self, run_id: str, columns: Iterable[str] | None = None,
+                      chunk: int = SAMPLE_CHUNK) -> Iterator[dict[str, np.ndarray]]:
+        """The run's raw samples as numpy columns, ``chunk`` rows at a time, in id order.
+
+        Each chunk is one short query (keyset paging on the clustered key), so the store is not
+        held while the caller works on a chunk, and memory stays bounded whatever the run's size.
+        """
+        names = rows.sample_column_names(columns)
+        for page in self.sample_pages(run_id, names, chunk):
+            yield rows.sample_columns(page, names)
+
+    def sample_counts(self, run_id: str) -> dict[int, int]:
+        """How many raw samples each step of the run has (steps without samples left out)."""
         run_id = self.resolve(run_id)
         self.flush()
-        with self._lock, _mapped_errors(self.path):
-            found = self._conn.execute(f"SELECT {', '.join(rows.SAMPLE_COLUMNS)} FROM samples WHERE run_id = ? "
-                                       "ORDER BY id", (run_id,)).fetchall()
-        return rows.sample_columns(found)
+        found = self._query("SELECT step_index, count(*) AS n FROM samples WHERE run_id = ? GROUP BY step_index",
+                            (run_id,))
+        return {r["step_index"]: r["n"] for r in found}
+
+    def sample_pages(self, run_id: str, columns: Iterable[str] | None = None,
+                     chunk: int = SAMPLE_CHUNK) -> Iterator[list[tuple[Any, ...]]]:
+        """The run's raw samples as rows of ``columns`` (all of rows.SAMPLE_COLUMNS by default),
+        ``chunk`` rows at a time in id order, as :meth:`sample_chunks` reads them."""
+        names = rows.sample_column_names(columns)
+        if type(chunk) is not int or chunk < 1:
+            raise StoreError(f"a chunk is a whole number of rows >= 1, got {chunk!r}")
+        run_id = self.resolve(run_id)
+        self.flush()
+        key = names.index("id") if "id" in names else len(names)
+        sql = (f"SELECT {', '.join(names)}{'' if 'id' in names else ', id'} FROM samples "
+               "WHERE run_id = ? AND id > ? ORDER BY id LIMIT ?")
+        last = -1
+        while True:
+            with self._lock, _mapped_errors(self.path):
+                if self._closed:
+                    raise StoreError(f"{self.path}: the store is closed")
+                page = self._conn.execute(sql, (run_id, last, chunk)).fetchall()
+            if not page:
+                return
+            last = page[-1][key]
+            yield page if key < len(names) else [row[:-1] for row in page]
+            if len(page) < chunk:
+                return
 
     def events(self, run_id: str) -> list[dict[str, Any]]:
         found = self._query("SELECT id, t, wall, kind, text, data FROM events WHERE run_id = ? ORDER BY id",
@@ -302,20 +347,17 @@ class Store:
                            "ORDER BY role", (self.resolve(run_id),))
 
     def export_csv(self, run_id: str, path: str | Path) -> Path:
-        """Write the run's raw samples as CSV (a folder gets ``<run_id>-samples.csv``)."""
+        """Write the run's raw samples as CSV (a folder gets ``<run_id>-samples.csv``), streamed
+        a chunk at a time."""
         run_id = self.resolve(run_id)
-        self.flush()
         target = export.target(path, run_id, "csv")
-        with self._lock, _mapped_errors(self.path):
-            cursor = self._conn.execute(f"SELECT {', '.join(rows.SAMPLE_COLUMNS)} FROM samples "
-                                        "WHERE run_id = ? ORDER BY id", (run_id,))
-            return export.write_csv(cursor, target)
+        return export.write_csv((row for page in self.sample_pages(run_id) for row in page), target)
 
     def export_parquet(self, run_id: str, path: str | Path) -> Path:
-        """Write the run's raw samples as Parquet; needs pyarrow."""
+        """Write the run's raw samples as Parquet, streamed a chunk at a time; needs pyarrow."""
         export.require_pyarrow()
         run_id = self.resolve(run_id)
-        return export.write_parquet(self.samples(run_id), export.target(path, run_id, "parquet"))
+        return export.write_parquet(self.sample_chunks(run_id), export.target(path, run_id, "parquet"))
 
     # -- inside -----------------------------------------------------------------------------------
 

@@ -145,3 +145,26 @@ def test_long_traces_are_thinned_but_keep_their_spike():
     assert len(tx) <= 1002 and max(ty) == 9.0 and tx[ty.index(9.0)] == t[77_777]
     assert tx[0] == t[0] and tx[-1] == t[-1] and tx == sorted(tx)
     assert decimate(t[:10], y[:10], 1000) == (t[:10], y[:10])
+
+
+def test_thinning_in_chunks_keeps_what_thinning_whole_keeps():
+    """Common practice, no source: min/max per bucket keeps a spike and is independent of chunking."""
+    import numpy as np
+
+    from harness.report.decimate import TraceThinner
+
+    rng = np.random.default_rng(7)
+    n = 50_000
+    columns = {"t": np.arange(n) * 0.05, "u": rng.normal(400, 1, n), "i": rng.normal(7, 0.1, n)}
+    columns["i"][31_337] = 40.0  # the sample that tripped
+    columns["u"][100:200] = np.nan  # the analyser gave no value here
+    whole = TraceThinner(n, ("u", "i"), "t")
+    whole.add(columns)
+    chunked = TraceThinner(n, ("u", "i"), "t")
+    for start in range(0, n, 4096):
+        chunked.add({k: v[start:start + 4096] for k, v in columns.items()})
+    a, b = whole.result(), chunked.result()
+    assert set(a["t"].tolist()) <= set(b["t"].tolist()) and len(b["t"]) <= len(a["t"]) + 4 * (n // 4096 + 1)
+    assert b["i"].max() == 40.0 and b["t"][b["i"].argmax()] == columns["t"][31_337]
+    assert b["t"][0] == 0.0 and b["t"][-1] == columns["t"][-1] and np.all(np.diff(b["t"]) > 0)
+    assert len(a["t"]) <= 1500 + 2

@@ -57,15 +57,21 @@ def test_unknown_run_is_a_clear_error(tmp_path: Path) -> None:
     assert proc.returncode == 2 and "Traceback" not in proc.stderr
 
 
-@pytest.mark.parametrize("which,keys", [
-    ("ramp", {"ratio_to_bound", "overshoot_pct", "baseline_ratio_to_bound"}),
-    ("overhead", {"ratio", "readings_per_second", "raw_pyvisa_us_per_reading"}),
-    ("reduce", {"samples", "seconds"}),
+@pytest.mark.parametrize("args,keys", [
+    (("reduce",), {"samples", "seconds"}),
+    (("report", "--samples", "200"), {"samples", "wall_s", "peak_rss_mb"}),
 ])
-def test_benchmarks_print_their_figures(tmp_path: Path, which: str, keys: set[str]) -> None:
-    proc = harness("bench", which, "--json", data=tmp_path)
+def test_benchmarks_print_their_figures(tmp_path: Path, args: tuple[str, ...], keys: set[str]) -> None:
+    # The slow benchmarks (whole simulated runs) are checked in tests/runner/test_bench.py on their parts.
+    proc = harness("bench", *args, "--json", data=tmp_path)
     assert proc.returncode == 0, proc.stderr
     assert keys <= set(json.loads(proc.stdout))
+
+
+def test_bench_options_belong_to_their_benchmark(tmp_path: Path) -> None:
+    for args in (("sequence",), ("reduce", "--samples", "10"), ("ramp", "sequences/routine_single_phase.yaml")):
+        proc = harness("bench", *args, data=tmp_path)
+        assert proc.returncode == 2 and "bench" in proc.stderr and "Traceback" not in proc.stderr
 
 
 def test_a_record_given_to_run_says_what_to_do(tmp_path: Path) -> None:

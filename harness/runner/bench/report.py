@@ -1,0 +1,85 @@
+"""Report cost against run size: a stored run of N raw samples, then ``harness report`` on it as a
+child process, its wall time and peak memory; the same at a tenth of N shows whether cost is linear.
+
+The run is written through the store's ordinary ``add_sample`` path: a ramp, a measure and a
+hold, the measure's averaged readings, step-start events with their limits, and the results of
+an example record, so the report draws, tabulates and exports what a real run gives it.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import sys
+import tempfile
+from pathlib import Path
+from typing import Any
+
+from harness.runner.bench.children import run_child
+from harness.runner.bench.startup import EVALUATE_RECORD, examples_folder
+
+SAMPLES = 1_000_000
+TARGETS = {"wall_s": 3.0, "peak_rss_mb": 150.0}
+_STEPS = (("ramp", "to rated current", 0.1), ("measure", "load loss at rated current", 0.5), ("hold", "watch", 0.4))
+
+
+def build_run(store: Any, samples: int) -> str:
+    """A finished run of ``samples`` raw samples in ``store``; its id."""
+    from harness.calc import evaluate, load_record
+
+    folder = examples_folder()
+    sequence = (folder / "routine_single_phase.yaml").read_text(encoding="utf-8")
+    run_id = store.begin_run(unit="NTW-50-0417", lab="Northfield Transformer Works (invented)", station_name="bench",
+                             sequence_text=sequence, station_text=None, software_version="bench", simulated=None)
+    first = 0
+    for index, (kind, name, share) in enumerate(_STEPS):
+        count = samples - first if index == len(_STEPS) - 1 else int(samples * share)
+        store.begin_step(run_id, index, kind, name)
+        store.add_event(run_id, first * 0.05, "step-start", f"step {index + 1}: {name}",
+                        {"step": index, "limits": {"voltage_V": 520.0, "current_A": 12.0, "power_W": 3000.0}})
+        for k in range(first, first + count):
+            t = k * 0.05
+            ripple = 1.0 + 0.002 * math.sin(k * 0.7)
+            level = min(1.0, (k + 1) / max(1, count)) if kind == "ramp" else 1.0
+            store.add_sample(run_id, index, t, 0, 270.0 * level * ripple, 268.0 * level, 7.58 * level * ripple,
+                             1010.0 * level * level, 50.0, 272.0 * level, None)
+        if kind == "measure":
+            stats = {"count": count, "stable": True, "channel": 0, "u_rms_mean": 270.0, "u_rms_std": 0.4,
+                     "i_rms_mean": 7.58, "i_rms_std": 0.01, "p_mean": 1010.0, "p_std": 1.4}
+            store.add_reading(run_id, index, "load-loss", first, first + count - 1, stats)
+        store.end_step(run_id, index, "passed")
+        first += count
+    results = evaluate(load_record(folder / EVALUATE_RECORD)).to_dict()
+    store.finish_run(run_id, "passed", 0, None, None, results)
+    return run_id
+
+
+def _report_cost(samples: int) -> dict[str, float]:
+    from harness.store import Store
+
+    with tempfile.TemporaryDirectory(prefix="harness-bench-report-") as scratch:
+        with Store(Path(scratch), background_flush=False) as store:
+            run_id = build_run(store, samples)
+        env = {**os.environ, "HARNESS_DATA": scratch}
+        cost = run_child([sys.executable, "-m", "harness.cli", "report", run_id], env=env)
+        written = {p.name: p.stat().st_size for p in (Path(scratch) / run_id).iterdir()}
+    return {"wall_s": cost.wall_s, "cpu_s": cost.cpu_s, "peak_rss_mb": cost.peak_rss_mb, "files": written}
+
+
+def bench_report(samples: int = SAMPLES) -> dict[str, Any]:
+    if type(samples) is not int or samples < 10:
+        raise ValueError(f"bench report needs at least 10 samples, got {samples!r}")
+    tenth = _report_cost(samples // 10)
+    whole = _report_cost(samples)
+    extra = samples - samples // 10
+    return {
+        "samples": samples, "wall_s": round(whole["wall_s"], 3), "peak_rss_mb": round(whole["peak_rss_mb"], 1),
+        "cpu_s": round(whole["cpu_s"], 3),
+        "at_a_tenth": {"samples": samples // 10, "wall_s": round(tenth["wall_s"], 3),
+                       "peak_rss_mb": round(tenth["peak_rss_mb"], 1)},
+        "us_per_sample": round((whole["wall_s"] - tenth["wall_s"]) / extra * 1e6, 3),
+        "bytes_per_sample": round(max(0.0, whole["peak_rss_mb"] - tenth["peak_rss_mb"]) * 2**20 / extra, 1),
+        "files_bytes": whole["files"],
+        "measure": "harness report as a child process: wall seconds and its peak resident memory",
+        "targets": TARGETS,
+    }

@@ -1,0 +1,47 @@
+"""The benchmarks' own arithmetic: the ramp's floor, the sequence's energised stretches."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from harness.runner.bench.ramp import bound_s, floor_s
+from harness.runner.bench.sequence import _energised
+
+
+@pytest.mark.parametrize(("volts", "slew", "tau", "tol"), [(264.0, 100.0, 0.2, 0.003), (130.0, 100.0, 0.2, 0.003),
+                                                          (640.0, 200.0, 0.5, 0.01)])
+def test_floor_is_when_a_slewed_first_order_lag_enters_the_band(volts, slew, tau, tol):
+    """First-order lag driven by a ramp at the slew rate, integrated numerically (textbook
+    first-order system response, recalled from memory): the output lags slew*tau behind the
+    ramp and then decays exponentially; the floor is the last time it is outside the band."""
+    dt = 1e-4
+    t = np.arange(0.0, volts / slew + 12 * tau, dt)
+    command = np.minimum(slew * t, volts)
+    out = np.zeros_like(t)
+    for k in range(1, len(t)):
+        out[k] = out[k - 1] + (command[k - 1] - out[k - 1]) * dt / tau
+    outside = np.abs(out - volts) > tol * volts
+    last = t[outside].max()
+    assert floor_s(volts, slew, tau, tol) == pytest.approx(last, abs=5 * dt + 1e-3)
+    assert floor_s(volts, slew, tau, tol) >= volts / slew and bound_s(volts, slew, tau) == volts / slew + tau
+
+
+def test_floor_without_a_tail_is_the_slewing_alone():
+    # a band wider than the lag: the output is inside it as the slew ends
+    assert floor_s(100.0, 100.0, 0.1, 0.5) == pytest.approx(1.0)
+    assert math.isfinite(floor_s(100.0, 100.0, 0.2, 0.2))
+
+
+def test_energised_stretches_run_from_energising_to_a_confirmed_off():
+    events = [
+        {"t": 1.0, "kind": "off", "data": {"confirmed": True}},  # before anything was energised
+        {"t": 2.0, "kind": "energised", "data": None},
+        {"t": 9.0, "kind": "off", "data": {"confirmed": True}},
+        {"t": 10.0, "kind": "energised", "data": None},
+        {"t": 14.0, "kind": "off", "data": {"confirmed": False}},  # not confirmed: still live
+        {"t": 15.5, "kind": "safe-state", "data": {"confirmed": True}},
+    ]
+    assert _energised(events) == [(2.0, 9.0), (10.0, 15.5)]

@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import importlib.util
 import math
+import sys
 
 import numpy as np
 import pytest
@@ -75,8 +76,11 @@ def test_exporting_an_unknown_run_is_a_clear_error(filled, tmp_path):
         store.export_csv("20990101-000000-0000", tmp_path / "x.csv")
 
 
-@pytest.mark.skipif(HAS_PYARROW, reason="pyarrow is installed")
-def test_parquet_without_pyarrow_is_a_clear_error(filled, tmp_path):
+def test_parquet_without_pyarrow_is_a_clear_error(filled, tmp_path, monkeypatch):
+    # pyarrow made unimportable here, whether or not the machine has it (None in sys.modules
+    # makes the import fail), so the outcome does not depend on what is installed meanwhile.
+    monkeypatch.setitem(sys.modules, "pyarrow", None)
+    monkeypatch.setitem(sys.modules, "pyarrow.parquet", None)
     store, run_id = filled
     with pytest.raises(StoreError, match="pip install pyarrow"):
         store.export_parquet(run_id, tmp_path / "x.parquet")

@@ -1,7 +1,8 @@
 """Benchmarks on the simulated bay: each returns figures; nothing here is a pass/fail test.
 
 - overhead: per-reading cost of the harness path (snapshot query, parse, checks) against a raw
-  pyvisa query loop on the same simulated analyser, interleaved in one run.
+  pyvisa query loop on the same simulated analyser, interleaved in one run; and the simulated
+  analyser's own work per update, without sockets.
 - ramp: a ramp to rated current, time to settle against the slew-limited lower bound and the
   overshoot, for the learned ramp and for a fixed-increment baseline.
 """

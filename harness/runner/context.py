@@ -196,7 +196,7 @@ class Run:
         m, limits = self.station.measurement, self.supervisor.limits
         held = self._ranges[0] * m.vt_ratio if quantity == "voltage" else self._ranges[1] * m.ct_ratio
         limit = getattr(limits, quantity)
-        if held < limit:
+        if held < limit * (1 - 1e-9):   # asked as limit / ratio: allow the rounding of that division
             return None
         return LimitTrip(f"{quantity} limit: the analyser's {quantity} input is over range, on a range "
                          f"that holds the limit of {limit:.4g} {_UNIT[quantity]}",

@@ -117,8 +117,15 @@ class ScpiInstrument:
         return parse_bool(self._query(command), self.name, command)
 
     def configure(self, command: str) -> None:
-        """Send a setting, then report any error the instrument queued for it."""
+        """Send a setting, then report any error the instrument queued for it.
+
+        Either query returns only once the instrument has taken the setting, so a setting is in
+        force before the next command to any instrument (writes on different connections are
+        not ordered otherwise). Without an error queue, ``*OPC?`` does the waiting.
+        """
         self._write(command)
+        if self._error_query is None:
+            self.wait_complete()
         self.check_errors(command)
 
     # --- IEEE 488.2 common commands and the error queue

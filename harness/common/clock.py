@@ -41,3 +41,32 @@ class Clock:
     def real(self, bay_seconds: float) -> float:
         """The real-time length of ``bay_seconds`` (for socket timeouts)."""
         return bay_seconds / self.time_scale
+
+
+class SteppedClock(Clock):
+    """A clock that moves only when its owner sleeps: bay time then depends on the calls made,
+    never on how fast the host runs them.
+
+    For driving the simulated bay from one thread (a test): that thread's ``sleep`` advances the
+    bay's time; the bay's server threads only read ``now``. A command sent without waiting for
+    its completion may be applied after a later ``sleep``, so confirm it first (``*OPC?`` on the
+    same connection). ``time_scale`` only converts the real-time socket timeouts.
+    """
+
+    def __init__(self, time_scale: float = 1.0):
+        super().__init__(time_scale)
+        self._t = 0.0
+        self._lock = threading.Lock()
+
+    def now(self) -> float:
+        return self._t
+
+    def sleep(self, bay_seconds: float) -> None:
+        if bay_seconds > 0:
+            with self._lock:
+                self._t += bay_seconds
+
+    def wait(self, event: threading.Event, bay_seconds: float) -> bool:
+        if not event.is_set():
+            self.sleep(bay_seconds)
+        return event.is_set()

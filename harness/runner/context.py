@@ -10,7 +10,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
-from drivers.errors import InstrumentReportedError
+from drivers.errors import InstrumentReportedError, OverRange
 from harness.common.clock import Clock
 from harness.common.reading import SQRT3, Phase, Sample, combine
 from harness.config.checks import EffectiveLimits, rated_current, rated_voltage, resolve_target
@@ -18,12 +18,18 @@ from harness.config.sequence import Sequence
 from harness.config.station import Station
 from harness.config.steps import Wiring
 from harness.runner.bay import Bay
-from harness.safety import ReadingFault, SafeOutcome, Supervisor, make_safe
+from harness.safety import LimitTrip, ReadingFault, SafeOutcome, Supervisor, make_safe
 
 # Host jitter does not scale with the simulated bay's clock: a reading counts as late only past
-# this many real seconds as well as past the station's bay-time threshold.
+# this many real seconds as well as past the station's bay-time threshold. A simulated bay's
+# replies come from this same busy host, so there only a stall as long as a stuck process's
+# counts (the floor of the other guards); a real bay keeps the short floor.
 LATE_FLOOR_REAL_S = 0.25
+SIMULATED_LATE_FLOOR_REAL_S = 2.0
 RANGE_HEADROOM = 1.3  # range chosen for 130 % of the reading: room for drift below the overload point
+# The analyser inputs whose overload can stand for a reading beyond a limit (see Run.read).
+_OVERLOADED = {"u_rms": "voltage", "u_mean": "voltage", "i_rms": "current"}
+_UNIT = {"voltage": "V", "current": "A"}
 
 
 @dataclass
@@ -175,13 +181,20 @@ class Run:
     def read(self, tag: str | None = None) -> Sample:
         self.raise_pending()
         t0 = self.clock.now()
-        snap = self.bay.analyser.snapshot()
+        try:
+            snap = self.bay.analyser.snapshot()
+        except OverRange as exc:
+            trip = self._beyond_limit(exc)
+            if trip is None:
+                raise
+            raise trip from exc
         t1 = self.clock.now()
         m = self.station.measurement
         vt, ct = m.vt_ratio, m.ct_ratio
         phases = tuple(Phase(ch.u_rms * vt, ch.u_mean * vt, ch.i_rms * ct, ch.p * vt * ct) for ch in snap.channels)
         freq = snap.channels[0].freq
-        age = t1 - t0 if self.clock.real(t1 - t0) > LATE_FLOOR_REAL_S else 0.0
+        floor = SIMULATED_LATE_FLOOR_REAL_S if self.station.simulated else LATE_FLOOR_REAL_S
+        age = t1 - t0 if self.clock.real(t1 - t0) > floor else 0.0
         first = -1
         for channel, ph in enumerate(phases, start=1):  # every channel kept, the one that trips too
             sid = self.store.add_sample(self.run_id, self.step_index, t1, channel, ph.u_rms, ph.u_mean, ph.i_rms,
@@ -194,6 +207,28 @@ class Run:
         self._watch_source(t1)
         self.progress.sample(sample, self.supervisor.limits)
         return sample
+
+    def _beyond_limit(self, exc: OverRange) -> LimitTrip | None:
+        """An overload on a range that holds the step's limit, as the limit trip it proves.
+
+        An input overloads only above its range (times the instrument's overload factor, never
+        below 1), and the analyser picks a range no smaller than the one asked. While ramping the
+        ranges are asked at the limits, so an overloaded voltage or current input there means the
+        quantity is past its limit, however far the bay moved between two readings: the trip is
+        the limit's, whatever the host's timing. On ranges fitted below the limits (a measure)
+        an overload proves nothing about the limit and stays an instrument fault.
+        """
+        quantity = _OVERLOADED.get(exc.quantity.split(" ", 1)[0])
+        if quantity is None or self.ranges is None:
+            return None
+        m, limits = self.station.measurement, self.supervisor.limits
+        held = self._ranges[0] * m.vt_ratio if quantity == "voltage" else self._ranges[1] * m.ct_ratio
+        limit = getattr(limits, quantity)
+        if held < limit * (1 - 1e-9):   # asked as limit / ratio: allow the rounding of that division
+            return None
+        return LimitTrip(f"{quantity} limit: the analyser's {quantity} input is over range, on a range "
+                         f"that holds the limit of {limit:.4g} {_UNIT[quantity]}",
+                         quantity, None, limit, self.supervisor.step, self.clock.now())
 
     def _watch_temperature(self, t: float) -> None:
         if not self.energised or t < self._next_temperature_t:

@@ -10,25 +10,28 @@ from harness.config.station import Station
 
 SIM_STATION_FILE = "<built-in simulated bay>"
 
+# Reply timeouts guard against a stuck instrument only. The simulated instruments share the
+# host (and the interpreter) with the runner, so a busy host delays their replies: they get a
+# real station's default, long enough that only a stuck instrument reaches it.
 _TEMPLATE = """\
 spec: 1
 name: Simulated bay
 lab: Harness simulated test bay (no hardware)
 simulated: true
 instruments:
-  source: {{resource: "{source}", profile: {source_profile}, timeout: 0.5 s}}
-  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 0.5 s}}
+  source: {{resource: "{source}", profile: {source_profile}, timeout: 2 s}}
+  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 2 s}}
   resistance_meter:
     resource: "{resistance_meter}"
     profile: generic-resistance-meter
-    timeout: 0.5 s
+    timeout: 2 s
     channels: {resistance_channels}
   thermometer:
     resource: "{thermometer}"
     profile: generic-thermometer
-    timeout: 0.5 s
+    timeout: 2 s
     channels: {{ambient: 1, oil: 2, winding: 3}}
-  bay_control: {{resource: "{bay_control}", profile: generic-bay-control, timeout: 0.5 s}}
+  bay_control: {{resource: "{bay_control}", profile: generic-bay-control, timeout: 2 s}}
 measurement: {{vt_ratio: {vt:g}, ct_ratio: {ct:g}}}
 measurement_chain:      # the simulated analyser's accuracy, from the scenario; its instrument
   channels:             # transformers (if any) are ideal, so ratio errors and displacements are zero

@@ -53,7 +53,7 @@ def mutate(doc: Any, path: tuple, action: str, value: Any) -> Any:
     return doc
 
 
-@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
 @given(mutations=st.lists(st.tuples(st.sampled_from(ALL_PATHS), st.sampled_from(["delete", "replace", "insert"]), junk),
                           min_size=1, max_size=3))
 def test_malformed_sequences_never_raise_a_traceback(tmp_path: Path, mutations: list) -> None:
@@ -74,7 +74,7 @@ def test_malformed_sequences_never_raise_a_traceback(tmp_path: Path, mutations: 
         assert first[1].isdigit() and first[2].isdigit(), text
 
 
-@settings(max_examples=80, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=80, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
 @given(text=st.text(alphabet=st.sampled_from(list("abc:-[]{}'\"\n #&*!|>%@`,?1.")), max_size=80))
 def test_garbage_text_is_refused_with_a_position(tmp_path: Path, text: str) -> None:
     target = tmp_path / "garbage.yaml"

@@ -52,6 +52,7 @@ class LineServer:
         self.port = self.sock.getsockname()[1]
         self.connections: list[socket.socket] = []
         self.received: list[tuple[int, bytes]] = []
+        self.closed = threading.Event()   # set once the server has closed a connection
         self._stop = threading.Event()
         self._thread = threading.Thread(target=self._accept, daemon=True)
         self._thread.start()
@@ -87,6 +88,7 @@ class LineServer:
                     answer = self.behaviour(index, line)
                     if answer == "close":
                         conn.shutdown(socket.SHUT_RDWR)
+                        self.closed.set()
                         return
                     if isinstance(answer, bytes):
                         conn.sendall(answer)

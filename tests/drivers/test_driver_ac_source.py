@@ -136,7 +136,9 @@ def test_sim_setting_outside_the_instrument_range_is_reported(sim_source: AcSour
 
 def test_sim_unanswered_query_times_out_and_recovers(sim_rm) -> None:
     from drivers import InstrumentTimeout, PyvisaTransport
-    transport = PyvisaTransport(RESOURCE, rm=sim_rm("generic-ac-source"), timeout_s=0.05, name="source")
+    # pyvisa-sim checks the timeout between the bytes of a reply as well: long enough that a busy
+    # host cannot cut the '1' short, since the unanswered query waits it out anyway.
+    transport = PyvisaTransport(RESOURCE, rm=sim_rm("generic-ac-source"), timeout_s=1.0, name="source")
     try:
         with pytest.raises(InstrumentTimeout) as info:
             transport.query("SOURce:POWer?")  # not in the definition: no reply

@@ -126,6 +126,19 @@ def test_profile_without_error_queue_sends_no_error_query(tmp_path) -> None:
     assert fake.sent == ["*RST", "*OPC?", "MEASure:TEMPerature? (@1)"]
 
 
+def test_a_setting_without_error_queue_is_confirmed_before_the_call_returns(tmp_path) -> None:
+    # Writes on different connections are not ordered: a setting must be in force before the
+    # next command to another instrument, so it is waited for with *OPC? (IEEE 488.2).
+    from drivers import AcSource
+    from drivers.profile import PROFILE_DIR
+    path = tmp_path / "plain-source.yaml"
+    path.write_text((PROFILE_DIR / "generic-ac-source.yaml").read_text()
+                    .replace('error_query: "SYSTem:ERRor?"', "error_query: null"))
+    fake = FakeTransport(lambda cmd: "1" if cmd == "*OPC?" else None)
+    AcSource(fake, "source", str(path)).set_output(False)
+    assert fake.sent[-1] == "*OPC?" and fake.sent[-2].startswith("OUTPut")
+
+
 def test_transport_errors_carry_the_instrument_name() -> None:
     def handler(cmd: str) -> str:
         raise ConnectionResetError(104, "reset")

@@ -1,8 +1,10 @@
 """The drivers against the simulated bay over loopback sockets, as they would meet hardware.
 
 Each generic profile's dialogue with the bay's own command tree, and each link failure the bay
-can act out, arriving as its InstrumentError. The bay runs threads in-process, its clock well
-above real time.
+can act out, arriving as its InstrumentError. The bay runs threads in-process on a stepped clock:
+its time moves only when a test waits, so what a test sees does not depend on how fast the host
+runs it. Every driver setting is a write followed by an error-queue query on the same
+connection, so it is applied before the clock moves.
 """
 
 from __future__ import annotations
@@ -14,29 +16,32 @@ import pytest
 
 from drivers import (AcSource, ChannelReading, ConnectionLost, InstrumentReportedError, InstrumentTimeout, OverRange, PowerAnalyser,
                      ProtocolError, ScpiInstrument, open_instrument)
-from harness.common.clock import Clock
+from harness.common.clock import SteppedClock
 from harness.sim.bay import Bay
 from harness.sim.faults import FaultSpec
 from harness.sim.scenario import load_scenario
 from harness.sim.server import SimServer
 
-TIME_SCALE = 100.0
+# Reply timeouts (real seconds) only guard against a stuck instrument; the short one is for the
+# faults whose outcome is the timeout itself.
+GUARD_TIMEOUT_S = 5.0
+FAULT_TIMEOUT_S = 0.5
 
 
 class BayInstruments:
-    def __init__(self, faults: tuple[FaultSpec, ...] = (), timeout_s: float = 1.0,
-                 scenario: str = "default", time_scale: float = TIME_SCALE):
+    def __init__(self, faults: tuple[FaultSpec, ...] = (), scenario: str = "default",
+                 analyser_timeout_s: float = GUARD_TIMEOUT_S):
         self.scenario = load_scenario(scenario)
-        self.clock = Clock(time_scale)
+        self.clock = SteppedClock()
         self.bay = Bay(self.scenario, self.clock, faults)
         self.server = SimServer(self.bay)
         res = self.server.start()
         self.opened: list[ScpiInstrument] = []
-        self.source: AcSource = self._open("ac_source", res["source"], "source", timeout_s)  # type: ignore[assignment]
-        self.analyser: PowerAnalyser = self._open("power_analyser", res["analyser"], "analyser", timeout_s)  # type: ignore[assignment]
-        self.ohmmeter = self._open("resistance_meter", res["resistance_meter"], "ohmmeter", timeout_s)
-        self.thermometer = self._open("thermometer", res["thermometer"], "thermometer", timeout_s)
-        self.bay_control = self._open("bay_control", res["bay_control"], "bay", timeout_s)
+        self.source: AcSource = self._open("ac_source", res["source"], "source", GUARD_TIMEOUT_S)  # type: ignore[assignment]
+        self.analyser: PowerAnalyser = self._open("power_analyser", res["analyser"], "analyser", analyser_timeout_s)  # type: ignore[assignment]
+        self.ohmmeter = self._open("resistance_meter", res["resistance_meter"], "ohmmeter", GUARD_TIMEOUT_S)
+        self.thermometer = self._open("thermometer", res["thermometer"], "thermometer", GUARD_TIMEOUT_S)
+        self.bay_control = self._open("bay_control", res["bay_control"], "bay", GUARD_TIMEOUT_S)
 
     def _open(self, kind: str, resource: str, name: str, timeout_s: float) -> ScpiInstrument:
         instrument = open_instrument(kind, resource, "generic", name, timeout_s=timeout_s)
@@ -156,12 +161,12 @@ def test_wiring_refused_while_live_is_reported(bay: BayInstruments) -> None:
     ("analyser-silent", InstrumentTimeout),
 ])
 def test_link_faults_arrive_as_instrument_errors(fault: str, error: type) -> None:
-    bay = BayInstruments(faults=(FaultSpec(name=fault),), timeout_s=0.3)
+    bay = BayInstruments(faults=(FaultSpec(name=fault),), analyser_timeout_s=FAULT_TIMEOUT_S)
     try:
         bay.energise(20)
+        bay.wait_bay_seconds(5.0)   # energised past every default trigger (2, 3 and 5 bay s)
         with pytest.raises(error) as info:
-            for _ in range(5):
-                bay.analyser.snapshot()
+            bay.analyser.snapshot()
         assert info.value.instrument == "analyser"
         assert info.value.command == bay.analyser.snapshot_command
     finally:
@@ -171,9 +176,10 @@ def test_link_faults_arrive_as_instrument_errors(fault: str, error: type) -> Non
 
 
 def test_dropped_connection_is_followed_by_a_fresh_session() -> None:
-    bay = BayInstruments(faults=(FaultSpec(name="dropped-connection"),), timeout_s=0.3)
+    bay = BayInstruments(faults=(FaultSpec(name="dropped-connection"),), analyser_timeout_s=FAULT_TIMEOUT_S)
     try:
         bay.energise(20)
+        bay.wait_bay_seconds(3.0)   # energised past the default trigger (3 bay s)
         with pytest.raises(ConnectionLost):
             bay.analyser.snapshot()
         assert bay.analyser.snapshot().channels[0].u_rms == pytest.approx(20, rel=0.02)
@@ -187,7 +193,7 @@ def test_dropped_connection_is_followed_by_a_fresh_session() -> None:
 
 
 def test_no_load_current_rises_steeply_above_rated_voltage() -> None:
-    bay = BayInstruments(time_scale=500.0)
+    bay = BayInstruments()
     try:
         rated = bay.scenario.transformer.lv.rated_voltage
         bay.analyser.set_ranges(600, 20)  # past the knee the current is several times its rated value
@@ -202,7 +208,7 @@ def test_no_load_current_rises_steeply_above_rated_voltage() -> None:
 
 
 def test_load_current_is_proportional_to_voltage() -> None:
-    bay = BayInstruments(time_scale=500.0)
+    bay = BayInstruments()
     try:
         bay.bay_control.set_wiring("hv", "short")
         bay.analyser.set_ranges(300, 10)
@@ -216,7 +222,7 @@ def test_load_current_is_proportional_to_voltage() -> None:
 
 
 def test_winding_warms_during_a_long_load_test() -> None:
-    bay = BayInstruments(time_scale=1000.0)
+    bay = BayInstruments()
     try:
         tf = bay.scenario.transformer
         rated_current = tf.rated_power / tf.hv.rated_voltage
@@ -235,7 +241,7 @@ def test_winding_warms_during_a_long_load_test() -> None:
 
 
 def test_mean_and_rms_voltage_differ_under_distortion() -> None:
-    bay = BayInstruments(scenario="aluminium-distorted", time_scale=500.0)
+    bay = BayInstruments(scenario="aluminium-distorted")
     try:
         bay.analyser.set_ranges(600, 5)
         bay.energise(0)

@@ -10,7 +10,6 @@ resource that raises them.
 from __future__ import annotations
 
 import socket
-import threading
 import time
 
 import pytest
@@ -22,6 +21,7 @@ from drivers import (ConnectionLost, FakeTransport, InstrumentError, InstrumentT
 from drivers.transport import map_visa_error
 
 SC = constants.StatusCode
+GUARD_S = 5.0   # real seconds; only a stuck link or server reaches it
 
 # The mapping table (README of drivers/): exception -> InstrumentError subclass.
 MAPPING = [
@@ -135,7 +135,7 @@ def test_invalid_resource_name_with_pyvisa_py() -> None:
 
 def test_nothing_listening_is_connection_lost_on_first_query(free_port: int) -> None:
     # pyvisa-py opens the resource without complaint; the failure comes with the first query.
-    transport = PyvisaTransport(f"TCPIP0::127.0.0.1::{free_port}::SOCKET", timeout_s=0.5, name="source")
+    transport = PyvisaTransport(f"TCPIP0::127.0.0.1::{free_port}::SOCKET", timeout_s=GUARD_S, name="source")
     try:
         with pytest.raises(ConnectionLost, match="refused") as info:
             transport.query("*IDN?")
@@ -148,8 +148,10 @@ def test_peer_closed_connection_is_connection_lost_not_timeout(line_server) -> N
     server = line_server(lambda conn, line: "close")
     transport = PyvisaTransport(server.resource, timeout_s=0.3, name="analyser")
     try:
+        transport.write("*IDN?")
+        assert server.closed.wait(GUARD_S)   # closed before the read begins: no race with the timeout
         with pytest.raises(ConnectionLost, match="closed the connection"):
-            transport.query("*IDN?")
+            transport.read()
     finally:
         transport.close()
 
@@ -157,9 +159,10 @@ def test_peer_closed_connection_is_connection_lost_not_timeout(line_server) -> N
 def test_late_reply_never_answers_the_next_query(line_server) -> None:
     def behaviour(conn: int, line: bytes) -> bytes | None:
         if conn == 0:
-            # The first connection answers too late: after the client has given up.
-            threading.Timer(0.4, lambda: _send_quietly(server.connections[0], b"LATE\n")).start()
-            return None
+            return None   # no reply in time
+        # The first connection answers late: after the client has given up (it reconnects only
+        # then) and before the next query's reply.
+        _send_quietly(server.connections[0], b"LATE\n")
         return b"FRESH " + line + b"\n"
 
     server = line_server(behaviour)
@@ -168,7 +171,6 @@ def test_late_reply_never_answers_the_next_query(line_server) -> None:
         with pytest.raises(InstrumentTimeout) as info:
             transport.query("SOUR:VOLT?")
         assert info.value.command == "SOUR:VOLT?" and info.value.instrument == "source"
-        time.sleep(0.5)  # the late reply has now arrived on the old connection
         assert transport.query("SOUR:FREQ?") == "FRESH SOUR:FREQ?"
     finally:
         transport.close()
@@ -183,14 +185,16 @@ def _send_quietly(conn: socket.socket, data: bytes) -> None:
 
 def test_write_on_a_dead_socket_is_connection_lost(line_server) -> None:
     server = line_server(lambda conn, line: "close" if conn == 0 else None)
-    transport = PyvisaTransport(server.resource, timeout_s=0.5, name="source")
+    transport = PyvisaTransport(server.resource, timeout_s=GUARD_S, name="source")
     try:
         transport.write("*CLS")  # the server closes on receiving it
-        time.sleep(0.1)
+        assert server.closed.wait(GUARD_S)
+        # The first send after a close may still be accepted by the kernel; the peer's reset
+        # then fails a later one. Real time bounds the loop only against a stuck link.
+        deadline = time.monotonic() + GUARD_S
         with pytest.raises(ConnectionLost) as info:
-            for _ in range(20):  # the first send after a close may still be accepted by the kernel
+            while time.monotonic() < deadline:
                 transport.write("OUTP:STAT OFF")
-                time.sleep(0.02)
         assert info.value.command == "OUTP:STAT OFF"
     finally:
         transport.close()
@@ -198,7 +202,7 @@ def test_write_on_a_dead_socket_is_connection_lost(line_server) -> None:
 
 def test_bytes_that_are_not_text_are_a_protocol_error(line_server) -> None:
     server = line_server(lambda conn, line: b"\xff\xfe230\n" if conn == 0 else b"230.0\n")
-    transport = PyvisaTransport(server.resource, timeout_s=0.5, name="analyser")
+    transport = PyvisaTransport(server.resource, timeout_s=GUARD_S, name="analyser")
     try:
         with pytest.raises(ProtocolError, match="not text"):
             transport.query("MEAS:VOLT:AC?")
@@ -210,7 +214,7 @@ def test_bytes_that_are_not_text_are_a_protocol_error(line_server) -> None:
 def test_instrument_over_socket_round_trip_and_garbled_snapshot(line_server) -> None:
     replies = iter([b"230.1;229.5;0.512;38.7;50.0\n", b"230.1;#garbage;0.512;38.7;50.0\n"])
     server = line_server(lambda conn, line: next(replies))
-    analyser = PowerAnalyser(PyvisaTransport(server.resource, timeout_s=0.5), "analyser")
+    analyser = PowerAnalyser(PyvisaTransport(server.resource, timeout_s=GUARD_S), "analyser")
     try:
         assert analyser.snapshot().channels[0].p == 38.7
         with pytest.raises(ProtocolError, match="garbage") as info:
@@ -223,7 +227,7 @@ def test_instrument_over_socket_round_trip_and_garbled_snapshot(line_server) -> 
 
 def test_closed_transport_refuses_work(line_server) -> None:
     server = line_server(lambda conn, line: b"1\n")
-    transport = PyvisaTransport(server.resource, timeout_s=0.5, name="source")
+    transport = PyvisaTransport(server.resource, timeout_s=GUARD_S, name="source")
     transport.close()
     with pytest.raises(ConnectionLost, match="closed"):
         transport.query("*OPC?")
@@ -231,8 +235,8 @@ def test_closed_transport_refuses_work(line_server) -> None:
 
 def test_closing_one_transport_leaves_the_others_open(line_server) -> None:
     server = line_server(lambda conn, line: b"1\n")
-    first = PyvisaTransport(server.resource, timeout_s=0.5, name="source")
-    second = PyvisaTransport(server.resource, timeout_s=0.5, name="analyser")
+    first = PyvisaTransport(server.resource, timeout_s=GUARD_S, name="source")
+    second = PyvisaTransport(server.resource, timeout_s=GUARD_S, name="analyser")
     try:
         first.close()
         assert second.query("*OPC?") == "1"

@@ -7,7 +7,7 @@ import math
 
 import pytest
 
-from harness.common.clock import Clock
+from harness.common.clock import Clock, SteppedClock
 from harness.common.reading import Phase, Sample, combine
 from harness.config.checks import EffectiveLimits
 from harness.config.station import ReadingChecks, SafeState
@@ -25,7 +25,7 @@ def three(phases: list[tuple[float, float, float, float]], t: float = 1.0) -> Sa
 
 
 def supervisor() -> Supervisor:
-    return Supervisor(LIMITS, ReadingChecks(), Clock(1000.0), step="test")
+    return Supervisor(LIMITS, ReadingChecks(), SteppedClock(), step="test")
 
 
 def test_setpoint_above_limit_trips_before_it_is_sent() -> None:
@@ -126,13 +126,13 @@ class FakeSource:
 
 def test_safe_state_confirmed_by_measurement() -> None:
     src = FakeSource()
-    out = make_safe(src, [("analyser", src.live)], SafeState(), Clock(1000.0))
+    out = make_safe(src, [("analyser", src.live)], SafeState(), SteppedClock())
     assert out.confirmed and out.method == "analyser" and not src.on
 
 
 def test_stuck_output_is_not_confirmed() -> None:
     src = FakeSource(stuck=True)
-    out = make_safe(src, [("analyser", src.live)], SafeState(confirm_timeout=1.0), Clock(1000.0))
+    out = make_safe(src, [("analyser", src.live)], SafeState(confirm_timeout=1.0), SteppedClock())
     assert not out.confirmed and out.voltage == 400.0
 
 
@@ -141,13 +141,13 @@ def test_failed_probe_falls_back_to_the_next() -> None:
 
     def silent() -> tuple[float, float]:
         raise TimeoutError("analyser silent")
-    out = make_safe(src, [("analyser", silent), ("source readback", src.live)], SafeState(), Clock(1000.0))
+    out = make_safe(src, [("analyser", silent), ("source readback", src.live)], SafeState(), SteppedClock())
     assert out.confirmed and out.method == "source readback"
     assert any("analyser silent" in n for n in out.notes)
 
 
 def test_every_step_is_attempted_when_the_source_fails() -> None:
     src = FakeSource(broken=True)
-    out = make_safe(src, [("analyser", src.live)], SafeState(), Clock(1000.0))
+    out = make_safe(src, [("analyser", src.live)], SafeState(), SteppedClock())
     assert not src.on                                # output off still tried after the setpoint failed
     assert out.confirmed and any("set voltage to zero" in n for n in out.notes)

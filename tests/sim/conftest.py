@@ -1,4 +1,11 @@
-"""Fixtures for the simulated bay: a bay on loopback sockets and pyvisa-py sessions to it."""
+"""Fixtures for the simulated bay: a bay on loopback sockets and pyvisa-py sessions to it.
+
+The bay runs on a stepped clock: its time moves only when a test sleeps, so what a test sees
+depends on the calls it makes, not on how fast the host runs them. Each write is confirmed
+(``*OPC?`` on the connection that wrote) before the call returns: writes on different sockets
+are otherwise not ordered, and a write not yet applied when the clock moves would take effect
+late.
+"""
 
 from __future__ import annotations
 
@@ -9,7 +16,7 @@ from typing import Iterator
 import pytest
 import pyvisa
 
-from harness.common.clock import Clock
+from harness.common.clock import SteppedClock
 from harness.sim.bay import Bay
 from harness.sim.scenario import Scenario, load_scenario
 from harness.sim.server import SimServer
@@ -18,14 +25,36 @@ SNAPSHOT = ("MEASure:VOLTage:AC? (@1);:MEASure:VOLTage:MEAN? (@1);:MEASure:CURRe
             ":MEASure:POWer:AC? (@1);:MEASure:FREQuency? (@1)")
 
 
+class Session:
+    """One instrument's pyvisa session whose ``write`` returns once the instrument has applied it."""
+
+    def __init__(self, resource: pyvisa.resources.MessageBasedResource):
+        self.resource = resource
+
+    def write(self, command: str) -> None:
+        reply = self.resource.query(f"{command};*OPC?")
+        assert reply.rsplit(";", 1)[-1] == "1", f"'{command}' not confirmed: {reply!r}"
+
+    def query(self, command: str) -> str:
+        return self.resource.query(command)
+
+    @property
+    def timeout(self) -> float:
+        return self.resource.timeout
+
+    @timeout.setter
+    def timeout(self, milliseconds: float) -> None:
+        self.resource.timeout = milliseconds
+
+
 @dataclass
 class LiveBay:
     bay: Bay
-    clock: Clock
+    clock: SteppedClock
     resources: dict[str, str]
-    sessions: dict[str, pyvisa.resources.MessageBasedResource]
+    sessions: dict[str, Session]
 
-    def __getitem__(self, role: str) -> pyvisa.resources.MessageBasedResource:
+    def __getitem__(self, role: str) -> Session:
         return self.sessions[role]
 
     def snapshot(self) -> tuple[float, float, float, float, float]:
@@ -42,23 +71,23 @@ class LiveBay:
 
 
 @contextlib.contextmanager
-def live_bay(scenario: Scenario | str = "default", time_scale: float = 500.0,
-             faults: tuple = ()) -> Iterator[LiveBay]:
+def live_bay(scenario: Scenario | str = "default", faults: tuple = ()) -> Iterator[LiveBay]:
     if isinstance(scenario, str):
         scenario = load_scenario(scenario)
-    clock = Clock(time_scale)
+    clock = SteppedClock()
     bay = Bay(scenario, clock, faults)
     rm = pyvisa.ResourceManager("@py")
     with SimServer(bay) as server:
         resources = server.resources()
-        sessions = {role: rm.open_resource(res, read_termination="\n", write_termination="\n", timeout=3000)
-                    for role, res in resources.items()}
+        opened = {role: rm.open_resource(res, read_termination="\n", write_termination="\n", timeout=3000)
+                  for role, res in resources.items()}
+        sessions = {role: Session(resource) for role, resource in opened.items()}
         try:
             yield LiveBay(bay, clock, resources, sessions)
         finally:
-            for session in sessions.values():
+            for resource in opened.values():
                 with contextlib.suppress(Exception):
-                    session.close()
+                    resource.close()
             rm.close()
 
 
@@ -70,5 +99,5 @@ def default_bay() -> Iterator[LiveBay]:
 
 @pytest.fixture
 def make_bay():
-    """``with make_bay(scenario, time_scale, faults) as lb:`` for tests that need their own bay."""
+    """``with make_bay(scenario, faults) as lb:`` for tests that need their own bay."""
     return live_bay

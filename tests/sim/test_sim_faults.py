@@ -50,7 +50,7 @@ def test_missing_link_leaves_the_shorted_winding_open(make_bay):
 
 
 def test_analyser_goes_silent_after_some_energised_time(make_bay):
-    with make_bay(faults=("analyser-silent",), time_scale=100.0) as lb:
+    with make_bay(faults=("analyser-silent",)) as lb:
         lb["analyser"].timeout = 300
         assert switch_on_briefly(lb) > 1.0   # still answering
         lb.clock.sleep(5.0)
@@ -80,7 +80,7 @@ def test_stuck_output_ignores_zero_and_off(make_bay):
 
 
 def test_garbage_reply_garbles_one_reply(make_bay):
-    with make_bay(faults=("garbage-reply",), time_scale=100.0) as lb:
+    with make_bay(faults=("garbage-reply",)) as lb:
         assert switch_on_briefly(lb) > 1.0
         lb.clock.sleep(3.0)
         garbled = lb["analyser"].query("MEAS:VOLT?")
@@ -90,7 +90,7 @@ def test_garbage_reply_garbles_one_reply(make_bay):
 
 
 def test_dropped_connection_closes_the_socket_and_accepts_a_new_one(make_bay):
-    with make_bay(faults=("dropped-connection",), time_scale=100.0) as lb:
+    with make_bay(faults=("dropped-connection",)) as lb:
         assert switch_on_briefly(lb) > 1.0
         lb.clock.sleep(3.0)
         lb["analyser"].timeout = 300

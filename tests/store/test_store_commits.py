@@ -22,14 +22,31 @@ unix_only = pytest.mark.skipif(not hasattr(signal, "SIGKILL") or not hasattr(sig
                                reason="needs POSIX signals")
 
 
-def _seen_within(path: Path, count: int, seconds: float) -> float | None:
-    """Seconds until another connection sees ``count`` samples, or None."""
-    start = time.monotonic()
-    while time.monotonic() - start < seconds:
+# Real seconds that only a stuck flusher or a stuck child process reaches.
+GUARD_S = 30.0
+
+
+def _seen_within(path: Path, count: int, seconds: float = GUARD_S) -> bool:
+    """True once another connection sees ``count`` samples; False if it never does."""
+    deadline = time.monotonic() + seconds
+    while time.monotonic() < deadline:
         if committed(path) >= count:
-            return time.monotonic() - start
+            return True
         time.sleep(0.01)
-    return None
+    return False
+
+
+class _SteppedMonotonic:
+    """Stands for the ``time`` module in the store: ``monotonic`` moves only when told to."""
+
+    def __init__(self) -> None:
+        self.now = 1000.0
+
+    def monotonic(self) -> float:
+        return self.now
+
+    def time(self) -> float:
+        return time.time()
 
 
 def test_flush_commits_at_once(tmp_path):
@@ -41,22 +58,26 @@ def test_flush_commits_at_once(tmp_path):
         assert committed(store.path) == 20
 
 
-def test_buffered_samples_reach_the_disk_within_a_second(tmp_path):
+def test_the_flusher_commits_buffered_samples_with_no_other_call(tmp_path):
+    # How soon is the commit interval, a real-time cadence: no test times it (see the guide).
     with Store(tmp_path) as store:
         run_id = begin(store)
         add(store, run_id, 20)
-        latency = _seen_within(store.path, 20, 2.0)
-        assert latency is not None and latency <= 1.0
+        assert _seen_within(store.path, 20)
 
 
-def test_without_the_flusher_add_sample_commits_once_the_interval_has_passed(tmp_path):
+def test_without_the_flusher_add_sample_commits_once_the_interval_has_passed(tmp_path, monkeypatch):
+    clock = _SteppedMonotonic()
+    monkeypatch.setattr("harness.store.store.time", clock)
     with Store(tmp_path, commit_interval_s=0.2, background_flush=False) as store:
         run_id = begin(store)
         add(store, run_id, 5)
-        assert committed(store.path) == 0
-        time.sleep(0.25)
+        clock.now += 0.19
         add(store, run_id, 1, start=5)
-        assert committed(store.path) == 6
+        assert committed(store.path) == 0
+        clock.now += 0.01
+        add(store, run_id, 1, start=6)
+        assert committed(store.path) == 7
         assert not [t for t in threading.enumerate() if t.name == "harness-store-flusher"]
 
 
@@ -92,14 +113,23 @@ def test_the_sample_count_matches_the_rows(tmp_path):
 
 @unix_only
 def test_flush_from_a_signal_handler_at_any_moment(tmp_path):
-    handled = []
+    handled, busy = [], []
     with Store(tmp_path, commit_interval_s=0.01) as store:
         run_id = begin(store)
         store.begin_step(run_id, 0, "hold", "hold")
 
         def handler(signum, frame):
-            handled.append(signum)
-            store.flush()
+            # A tick that strikes inside this handler's own flush returns at once: on a busy host
+            # a flush can outlast the 0.3 ms interval, and nesting handlers would then recurse
+            # without end. Ticks still strike anywhere in the test's own calls (their flushes too).
+            if busy:
+                return
+            busy.append(signum)
+            try:
+                handled.append(signum)
+                store.flush()
+            finally:
+                busy.clear()
 
         previous = signal.signal(signal.SIGALRM, handler)
         signal.setitimer(signal.ITIMER_REAL, 0.0003, 0.0003)
@@ -214,7 +244,7 @@ def _read_reports(child: subprocess.Popen[str], until: int) -> tuple[str, int]:
     return run_id, reported
 
 
-def _listed_status(folder: Path, seconds: float = 5.0) -> str:
+def _listed_status(folder: Path, seconds: float = GUARD_S) -> str:
     """The run's listed status once the kill has taken effect (the child may still be a zombie)."""
     deadline = time.monotonic() + seconds
     with Store(folder) as store:
@@ -266,13 +296,13 @@ def test_a_failed_background_commit_reaches_the_runner_and_loses_nothing(tmp_pat
 
         monkeypatch.setattr(store, "_write_pending", disk_full)
         add(store, run_id, 10)
-        deadline = time.monotonic() + 2.0
+        deadline = time.monotonic() + GUARD_S
         while store.flush_error is None and time.monotonic() < deadline:
             time.sleep(0.01)
         with pytest.raises(StoreError, match="disk is full"):
             add(store, run_id, 1, start=10)
         monkeypatch.setattr(store, "_write_pending", real_write)
-        assert _seen_within(store.path, 11, 2.0) is not None and store.flush_error is None
+        assert _seen_within(store.path, 11) and store.flush_error is None
         assert store.samples(run_id)["id"].tolist() == list(range(11))
 
 

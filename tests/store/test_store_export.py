@@ -77,7 +77,8 @@ def test_exporting_an_unknown_run_is_a_clear_error(filled, tmp_path):
 
 
 def test_parquet_without_pyarrow_is_a_clear_error(filled, tmp_path, monkeypatch):
-    # pyarrow is a test dependency: its absence is made by hiding it from the import system
+    # pyarrow made unimportable here, whether or not the machine has it (None in sys.modules
+    # makes the import fail), so the outcome does not depend on what is installed meanwhile.
     monkeypatch.setitem(sys.modules, "pyarrow", None)
     monkeypatch.setitem(sys.modules, "pyarrow.parquet", None)
     store, run_id = filled

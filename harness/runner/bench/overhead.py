@@ -102,7 +102,31 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
             "raw_pyvisa_us_per_reading": round(statistics.median(raw_us), 1),
             "harness_us_per_reading": round(statistics.median(harness_us), 1),
             "readings_per_second": round(1e6 / statistics.median(harness_us), 1),
-            "rounds": rounds, "readings_per_round": n, "target_ratio": TARGET_RATIO}
+            "rounds": rounds, "readings_per_round": n, "target_ratio": TARGET_RATIO,
+            "sim_analyser_us_per_update": round(_sim_analyser_us_per_update(), 2)}
+
+
+def _sim_analyser_us_per_update(n: int = 300) -> float:
+    """The simulated analyser's own work per snapshot when every query brings a new update (the
+    costly case), without sockets: the bay's share of the raw figure."""
+    from harness.common.clock import SteppedClock
+    from harness.sim.bay import Bay
+    from harness.sim.devices import analyser_device
+    from harness.sim.scenario import load_scenario
+
+    clock = SteppedClock()
+    bay = Bay(load_scenario("default"), clock)
+    device = analyser_device(bay)
+    bay.source_command("output", True)
+    bay.source_command("voltage", 415.0)
+    clock.sleep(10.0)
+    text = ("MEAS:VOLT:AC? (@1);:MEAS:VOLT:MEAN? (@1);:MEAS:CURR:AC? (@1);:MEAS:POW:AC? (@1);"
+            ":MEAS:FREQ? (@1)")
+    began = time.perf_counter()
+    for _ in range(n):
+        clock.sleep(0.2)   # past the next update instant
+        device.handle(text)
+    return (time.perf_counter() - began) / n * 1e6
 
 
 def _alternating(a: Callable[[], None], b: Callable[[], None], rounds: int, n: int) -> tuple[list[float], list[float]]:

@@ -17,7 +17,8 @@ from drivers import FakeTransport, OverRange, PowerAnalyser
 from harness.common.clock import SteppedClock
 from harness.common.yamlio import load_file, validate
 from harness.config.sequence import Sequence
-from harness.runner.context import Run, Sample
+from harness.common.reading import Phase, combine
+from harness.runner.context import Run
 from harness.runner.sim_station import sim_station
 from harness.safety import LimitTrip, ReadingFault
 from tests.runner.conftest import ROUTINE
@@ -77,7 +78,7 @@ def test_overload_on_ranges_asked_at_the_limits_is_the_limit_trip(reply: str, qu
 
 def test_overload_on_ranges_fitted_below_the_limits_stays_an_instrument_fault() -> None:
     run, answer = _run()
-    run.fit_ranges(Sample(0, 0.0, 230.0, 229.0, 1.0, 100.0, 50.0, 230.0))   # 1.3 A asked, limit 6 A
+    run.fit_ranges(combine(0, 0.0, (Phase(230.0, 229.0, 1.0, 100.0),), 50.0, 230.0))   # 1.3 A asked, limit 6 A
     answer.reply = f"230.0;229.0;{OVERLOAD};{OVERLOAD};50.0"
     with pytest.raises(OverRange):
         run.read()

@@ -126,6 +126,44 @@ class Supervisor:
             raise self.trip("winding_temperature", degc, self.limits.winding_temperature)
 
 
+# A three-phase bay's phases that part this far are a fault of the connections, not of the unit
+# (common practice, no source): the line-to-line voltages of any test, and the line currents of a
+# load-loss test (the no-load currents differ by design on a three-limb core). They are judged
+# once the readings stand well above the analyser's noise on ranges opened to the limits: from
+# 5 % of the voltage limit, and from 0.5 % of the current limit (an open link phase keeps the
+# first readings of a current ramp low, and they must already tell).
+UNBALANCE_LIMIT_PCT = 10.0
+UNBALANCE_VOLTAGE_FROM = 0.05
+UNBALANCE_CURRENT_FROM = 0.005
+
+
+def unbalance(sample: Sample, limits: EffectiveLimits, load_test: bool, step: str = "") -> ReadingFault | None:
+    """A three-phase reading whose phases part beyond UNBALANCE_LIMIT_PCT, naming the phase: a
+    dead source phase (the two line-to-line voltages through it drop) or an open link phase."""
+    if len(sample.phases) != 3:
+        return None
+    u = [ph.u_rms for ph in sample.phases]
+    if sample.u_rms > UNBALANCE_VOLTAGE_FROM * limits.voltage and _spread(u) > UNBALANCE_LIMIT_PCT:
+        highest = u.index(max(u))  # the pair that does not run through the odd phase: 1-2, 2-3, 3-1
+        phase = f"L{(highest + 2) % 3 + 1}"
+        return ReadingFault(f"line-to-line voltages unbalanced ({', '.join(f'{v:.4g}' for v in u)} V for 1-2, "
+                            f"2-3, 3-1): the two through phase {phase} are low - a source phase or lead missing?",
+                            step=step, time=sample.t, phase=phase)
+    i = [abs(ph.i_rms) for ph in sample.phases]
+    if load_test and sample.i_rms > UNBALANCE_CURRENT_FROM * limits.current and _spread(i) > UNBALANCE_LIMIT_PCT:
+        odd = max(range(3), key=lambda k: abs(i[k] - (sum(i) - i[k]) / 2))
+        phase = f"L{odd + 1}"
+        return ReadingFault(f"line currents of the load-loss test unbalanced ({', '.join(f'{v:.4g}' for v in i)} A): "
+                            f"phase {phase} stands out - a phase of the short-circuit link open or loose?",
+                            step=step, time=sample.t, phase=phase)
+    return None
+
+
+def _spread(values: list[float]) -> float:
+    mean = sum(values) / len(values)
+    return 100.0 * (max(values) - min(values)) / mean if mean > 0 else 0.0
+
+
 @dataclass
 class SafeOutcome:
     confirmed: bool

@@ -18,7 +18,7 @@ from harness.config.sequence import Sequence
 from harness.config.station import Station
 from harness.config.steps import Wiring
 from harness.runner.bay import Bay
-from harness.safety import LimitTrip, ReadingFault, SafeOutcome, Supervisor, make_safe
+from harness.safety import unbalance, LimitTrip, ReadingFault, SafeOutcome, Supervisor, make_safe
 
 # Host jitter does not scale with the simulated bay's clock: a reading counts as late only past
 # this many real seconds as well as past the station's bay-time threshold. A simulated bay's
@@ -202,6 +202,10 @@ class Run:
             first = sid if first < 0 else first
         sample = combine(first, t1, phases, freq, self.setpoint)
         self.supervisor.check_reading(sample, age)
+        fault = unbalance(sample, self.supervisor.limits, self.wiring is not None and self.wiring.other == "short",
+                          self.step_title)
+        if fault is not None:
+            raise fault
         self.last_sample = sample
         self._watch_temperature(t1)
         self._watch_source(t1)

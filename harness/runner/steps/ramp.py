@@ -175,9 +175,12 @@ def _stop_before_current_limit(run: Run, previous: Sample | None, s: Sample, tar
     ahead = i_now * (1 + GUARD_STEPS * (s.u_mean / previous.u_mean - 1)) ** exponent
     limit = run.supervisor.limits.current
     if ahead >= limit:
-        raise Trip(f"no-load ramp stopped at {s.u_mean:.4g} V before {target:.4g} V: the magnetising current "
+        phase = f"L{[ph.i_rms for ph in s.phases].index(i_now) + 1}" if len(s.phases) == 3 else None
+        where = f" on phase {phase}" if phase else ""
+        raise Trip(f"no-load ramp stopped at {s.u_mean:.4g} V before {target:.4g} V: the magnetising current{where} "
                    f"{i_now:.4g} A, rising as the {exponent:.1f}th power of the voltage, would reach the step's "
-                   f"current limit within {GUARD_STEPS} more readings", "current", ahead, limit, run.step_title, run.clock.now())
+                   f"current limit within {GUARD_STEPS} more readings", "current", ahead, limit, run.step_title,
+                   run.clock.now(), phase)
 
 
 def highest_current(s: Sample) -> float:

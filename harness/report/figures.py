@@ -156,19 +156,33 @@ def excitation_figure(sweep: Sequence[Mapping[str, Any]]) -> str | None:
 _TRACE_PANELS = (("u_V", "voltage_V", "voltage (V)"), ("i_A", "current_A", "current (A)"), ("p_W", "power_W", "power (W)"))
 
 
+# A three-phase trace: one line per channel (voltages line-to-line, currents line currents, the
+# power of each measuring element), told apart by dash pattern as well as colour (black-and-white prints).
+_PHASE_LINES = (("L1", "U12", "-"), ("L2", "U23", "--"), ("L3", "U31", ":"))
+
+
 def trace_figure(trace: Mapping[str, Any], index: int, trip: Mapping[str, Any] | None = None) -> str | None:
-    """Voltage, current and power against time for one ramp, each with its limit drawn."""
-    t = _numbers(trace.get("t_s") or [])
-    panels = [p for p in _TRACE_PANELS if len(trace.get(p[0]) or []) == len(t) and t]
+    """Voltage, current and power against time for one ramp, each with its limit drawn; a
+    three-phase step draws each phase."""
+    lines = list(trace.get("phases") or [trace])
+    t = _numbers(lines[0].get("t_s") or [])
+    panels = [p for p in _TRACE_PANELS if len(lines[0].get(p[0]) or []) == len(t) and t]
     if not panels:
         return None
     with matplotlib.rc_context(_RC):
         fig = new_figure(7.0, 1.5 + 1.25 * len(panels))
         axes = fig.subplots(len(panels), 1, sharex=True, squeeze=False)[:, 0]
         for i, (ax, (key, limit_key, label)) in enumerate(zip(axes, panels)):
-            ax.plot(*decimate(t, _numbers(trace[key])), color=COLOURS[i], linewidth=1.3, label=label.split(" ")[0])
+            for line, (phase, pair, dash) in zip(lines, _PHASE_LINES):
+                name = (pair if key == "u_V" else phase) if len(lines) > 1 else label.split(" ")[0]
+                ax.plot(*decimate(_numbers(line["t_s"]), _numbers(line[key])), color=COLOURS[i], linewidth=1.3,
+                        linestyle=dash if len(lines) > 1 else "-", label=name)
             ax.set_ylabel(label)
-            _draw_limit(ax, (trace.get("limits") or {}).get(limit_key), label.split(" (")[1].rstrip(")"))
+            if len(lines) > 1:
+                ax.legend(loc="center right", fontsize=7, ncol=3)
+            unit = label.split(" (")[1].rstrip(")")
+            total = " (total)" if len(lines) > 1 and key == "p_W" else ""
+            _draw_limit(ax, (trace.get("limits") or {}).get(limit_key), unit + total)
             _draw_trip(ax, trace, trip)
         axes[-1].set_xlabel("time (s)")
     return to_svg(fig, f"fig-trace-{index}")

@@ -56,7 +56,7 @@ def run_bundle(store: Any, run_id: str, row: dict[str, Any] | None = None,
     labels = {st["step_index"]: f"{st['step_index'] + 1}: {st['name']}" for st in steps}
     if thinners is None:
         thinners = _thinners(steps, store.sample_counts(run_id))
-        for columns in store.sample_chunks(run_id, ("step_index", "t", *_TRACE_KEYS)):
+        for columns in store.sample_chunks(run_id, ("step_index", "channel", "t", *_TRACE_KEYS)):
             _thin(thinners, columns)
     return ReportBundle(
         run=_run_meta(row, sequence),
@@ -125,35 +125,47 @@ def _reading(row: dict[str, Any], labels: dict[int, str]) -> dict[str, Any]:
             "std": {q: row.get(f"{q}_std") for q in quantities}, "stable": bool(row["stable"])}
 
 
-def _thinners(steps: list[dict[str, Any]], counts: dict[int, int]) -> dict[int, TraceThinner]:
-    """One thinner for each step that draws a trace and has samples."""
-    return {st["step_index"]: TraceThinner(counts[st["step_index"]], _TRACE_KEYS, "t")
-            for st in steps if st["kind"] in TRACE_KINDS and counts.get(st["step_index"])}
+def _thinners(steps: list[dict[str, Any]], counts: dict[tuple[int, int], int]
+              ) -> dict[tuple[int, int], TraceThinner]:
+    """One thinner for each channel of each step that draws a trace and has samples."""
+    kinds = {st["step_index"]: st["kind"] for st in steps}
+    return {(step, channel): TraceThinner(n, _TRACE_KEYS, "t")
+            for (step, channel), n in sorted(counts.items()) if kinds.get(step) in TRACE_KINDS and n}
 
 
-def _thin(thinners: dict[int, TraceThinner], columns: dict[str, np.ndarray]) -> None:
-    """Feed one chunk of samples to the thinners of the steps it holds."""
+def _thin(thinners: dict[tuple[int, int], TraceThinner], columns: dict[str, np.ndarray]) -> None:
+    """Feed one chunk of samples to the thinners of the steps and channels it holds."""
     index = columns["step_index"]
     if not len(index) or not thinners:
         return
-    # a step's samples are consecutive: cut the chunk where the step changes
+    # a step's samples are consecutive (its channels interleaved): cut the chunk where the step changes
     cuts = [0, *(np.flatnonzero(index[1:] != index[:-1]) + 1).tolist(), len(index)]
     for a, b in zip(cuts[:-1], cuts[1:]):
-        thinner = thinners.get(int(index[a]))
-        if thinner is not None:
-            thinner.add({k: columns[k][a:b] for k in ("t", *_TRACE_KEYS)})
+        channel = columns["channel"][a:b]
+        for number in np.unique(channel).tolist():
+            thinner = thinners.get((int(index[a]), int(number)))
+            if thinner is not None:
+                mine = channel == number
+                thinner.add({k: columns[k][a:b][mine] for k in ("t", *_TRACE_KEYS)})
 
 
-def _traces(thinners: dict[int, TraceThinner], steps: list[dict[str, Any]], events: list[dict[str, Any]],
-            labels: dict[int, str]) -> list[dict[str, Any]]:
+def _traces(thinners: dict[tuple[int, int], TraceThinner], steps: list[dict[str, Any]],
+            events: list[dict[str, Any]], labels: dict[int, str]) -> list[dict[str, Any]]:
+    """One trace per step; a three-phase step's trace has one line per channel (``phases``)."""
     limits = {e["data"]["step"]: e["data"]["limits"] for e in events
               if e["kind"] == "step-start" and isinstance(e.get("data"), dict)}
     kinds = {st["step_index"]: st["kind"] for st in steps}
-    traces = []
-    for n, thinner in thinners.items():
+    by_step: dict[int, list[dict[str, Any]]] = {}
+    for (n, _), thinner in thinners.items():
         kept = thinner.result()
-        traces.append({"step": labels[n], "tag": kinds[n], "t_s": kept["t"].tolist(), "u_V": kept["u_rms"].tolist(),
-                       "i_A": kept["i_rms"].tolist(), "p_W": kept["p"].tolist(), "limits": limits.get(n, {})})
+        by_step.setdefault(n, []).append({"t_s": kept["t"].tolist(), "u_V": kept["u_rms"].tolist(),
+                                          "i_A": kept["i_rms"].tolist(), "p_W": kept["p"].tolist()})
+    traces = []
+    for n, lines in by_step.items():
+        trace = {"step": labels[n], "tag": kinds[n], **lines[0], "limits": limits.get(n, {})}
+        if len(lines) > 1:
+            trace["phases"] = lines
+        traces.append(trace)
     return traces
 
 

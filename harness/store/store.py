@@ -296,13 +296,13 @@ class Store:
         for page in self.sample_pages(run_id, names, chunk):
             yield rows.sample_columns(page, names)
 
-    def sample_counts(self, run_id: str) -> dict[int, int]:
-        """How many raw samples each step of the run has (steps without samples left out)."""
+    def sample_counts(self, run_id: str) -> dict[tuple[int, int], int]:
+        """How many raw samples each (step, channel) of the run has (those without samples left out)."""
         run_id = self.resolve(run_id)
         self.flush()
-        found = self._query("SELECT step_index, count(*) AS n FROM samples WHERE run_id = ? GROUP BY step_index",
-                            (run_id,))
-        return {r["step_index"]: r["n"] for r in found}
+        found = self._query("SELECT step_index, channel, count(*) AS n FROM samples WHERE run_id = ? "
+                            "GROUP BY step_index, channel", (run_id,))
+        return {(r["step_index"], r["channel"]): r["n"] for r in found}
 
     def sample_pages(self, run_id: str, columns: Iterable[str] | None = None,
                      chunk: int = SAMPLE_CHUNK) -> Iterator[list[tuple[Any, ...]]]:

@@ -124,7 +124,7 @@ def test_chosen_columns_and_counts_per_step(filled):
     store, run_id = filled
     columns = store.samples(run_id, ("t", "i_rms"))
     assert tuple(columns) == ("t", "i_rms") and columns["i_rms"].tolist() == [0.0, 1.05, 2.1, 2.1]
-    assert store.sample_counts(run_id) == {(0, 1): 2, (1, 1): 2}
+    assert store.sample_counts(run_id) == {(0, 0): 2, (1, 0): 1, (1, 1): 1}  # (step, channel) as filled
     with pytest.raises(StoreError, match="unknown sample column"):
         store.samples(run_id, ("t", "volts"))
     with pytest.raises(StoreError, match="whole number"):

@@ -91,8 +91,8 @@ def _phase_count_problems(r: Any) -> list[Problem]:
     """A list of three belongs to a three-phase unit only."""
     if r.transformer.phases == 3:
         return []
-    fields = [(("no_load", f), getattr(r.no_load, f)) for f in ("voltage", "voltage_mean", "current")
-              if r.no_load is not None]
+    fields: list[tuple[tuple[str, ...], Any]] = [
+        (("no_load", f), getattr(r.no_load, f)) for f in ("voltage", "voltage_mean", "current") if r.no_load is not None]
     fields += [(("load", f), getattr(r.load, f)) for f in ("voltage", "current") if r.load is not None]
     if r.winding_resistance is not None:
         fields += [(("winding_resistance", w, "resistance"), getattr(r.winding_resistance, w).resistance)

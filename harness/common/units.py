@@ -70,7 +70,7 @@ def __getattr__(name: str) -> Any:
 
 
 def _unit_names(q: pint.Quantity) -> set[str]:
-    return {str(name) for name in q.unit_items() for name in [name[0]]} or {"dimensionless"}
+    return {str(item[0]) for item in q.unit_items()} or {"dimensionless"}
 
 
 @lru_cache(maxsize=4096)

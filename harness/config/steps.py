@@ -28,7 +28,7 @@ class OnQuantity(Step):
 
     @model_validator(mode="after")
     def _exactly_one(self):
-        if (self.voltage is None) == (self.current is None):  # type: ignore[attr-defined]
+        if (self.voltage is None) == (self.current is None):
             raise ValueError("give exactly one of 'voltage' or 'current'")
         return self
 

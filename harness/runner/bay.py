@@ -6,6 +6,11 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from drivers import open_instrument
+from drivers.ac_source import AcSource
+from drivers.bay_control import BayControl
+from drivers.resistance_meter import ResistanceMeter
+from drivers.thermometer import Thermometer
+from drivers.power_analyser import PowerAnalyser
 from harness.config.station import Instrument, Station
 from harness.config.station_checks import ROLE_KINDS
 
@@ -13,11 +18,11 @@ from harness.config.station_checks import ROLE_KINDS
 @dataclass
 class Bay:
     """The opened instruments of a station; the runner talks to the bay only through these."""
-    source: Any
-    analyser: Any
-    resistance_meter: Any = None
-    thermometer: Any = None
-    bay_control: Any = None
+    source: AcSource
+    analyser: PowerAnalyser
+    resistance_meter: ResistanceMeter | None = None
+    thermometer: Thermometer | None = None
+    bay_control: BayControl | None = None
     identities: list[dict[str, Any]] = field(default_factory=list)
 
     def instruments(self) -> list[tuple[str, Any]]:

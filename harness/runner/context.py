@@ -18,6 +18,8 @@ from harness.config.sequence import Sequence
 from harness.config.station import Station
 from harness.config.steps import Wiring
 from harness.runner.bay import Bay
+from harness.runner.operators import TerminalOperator
+from harness.runner.seams import Display, Operator, RunStore
 from harness.safety import unbalance, LimitTrip, ReadingFault, SafeOutcome, Supervisor, make_safe
 
 # Host jitter does not scale with the simulated bay's clock: a reading counts as late only past
@@ -72,9 +74,9 @@ class Run:
     station: Station
     clock: Clock
     bay: Bay
-    store: Any
-    progress: Any
-    yes: bool = False
+    store: RunStore
+    progress: Display
+    operator: Operator = field(default_factory=TerminalOperator)
     supervisor: Supervisor = field(init=False)
     wiring: Wiring | None = None
     energised: bool = False
@@ -255,9 +257,10 @@ class Run:
     def read_temperature(self, name: str) -> float | None:
         thermometer = self.bay.thermometer
         spec = self.station.instruments.thermometer
-        if thermometer is None or spec is None or name not in spec.channels:
+        channel = spec.channels.get(name) if spec is not None else None
+        if thermometer is None or not isinstance(channel, int):
             return None
-        value = thermometer.read(spec.channels[name])
+        value = thermometer.read(channel)
         if not math.isfinite(value):
             raise ReadingFault(f"thermometer channel '{name}' is not a number", step=self.step_title)
         return value

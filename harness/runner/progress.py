@@ -6,13 +6,16 @@ A live rich panel on a terminal; plain event lines otherwise (CI, pipes, --json 
 from __future__ import annotations
 
 import time
-from typing import Any
+from typing import Any, Callable
 
 from rich.console import Console
 from rich.live import Live
 from rich.markup import escape
 from rich.table import Table
 
+from harness.common.reading import Sample
+from harness.config.checks import EffectiveLimits
+from harness.runner.seams import Display
 from harness.safety import Trip
 
 REFRESH_S = 0.1
@@ -24,7 +27,7 @@ class GuardedDisplay:
     runner raises at its next step forward, so the run stops through the safe state. Calls made
     while the bay is made safe never raise."""
 
-    def __init__(self, display: Any):
+    def __init__(self, display: Display):
         self.display = display
         self.failure: str | None = None
         self._fault: Trip | None = None
@@ -33,19 +36,26 @@ class GuardedDisplay:
         fault, self._fault = self._fault, None
         return fault
 
-    def __getattr__(self, name: str) -> Any:
-        method = getattr(self.display, name)
+    def step(self, index: int, kind: str, title: str) -> None:
+        self._guarded(self.display.step, index, kind, title)
 
-        def call(*args: Any, **kwargs: Any) -> Any:
-            if self.failure is not None:
-                return None
-            try:
-                return method(*args, **kwargs)
-            except Exception as exc:  # noqa: BLE001 - any failure of the display stops the run safely
-                self.failure = f"progress display failed: {exc!r}"
-                self._fault = Trip(self.failure)
-                return None
-        return call
+    def stage(self, text: str, done: float, total: float) -> None:
+        self._guarded(self.display.stage, text, done, total)
+
+    def event(self, kind: str, text: str) -> None:
+        self._guarded(self.display.event, kind, text)
+
+    def sample(self, sample: Sample, limits: EffectiveLimits) -> None:
+        self._guarded(self.display.sample, sample, limits)
+
+    def _guarded(self, method: Callable[..., None], *args: Any) -> None:
+        if self.failure is not None:
+            return
+        try:
+            method(*args)
+        except Exception as exc:  # noqa: BLE001 - any failure of the display stops the run safely
+            self.failure = f"progress display failed: {exc!r}"
+            self._fault = Trip(self.failure)
 
 
 class Progress:
@@ -81,7 +91,7 @@ class Progress:
         line = escape(f"{kind}: {text}")
         self._print(f"  [{style}]{line}[/{style}]" if style else f"  {line}")
 
-    def sample(self, sample: Any, limits: Any) -> None:
+    def sample(self, sample: Sample, limits: EffectiveLimits) -> None:
         now = time.monotonic()
         if self.live is None or now - self._last < REFRESH_S:
             return

@@ -47,7 +47,7 @@ def write_run_reports(store: Any, run_id: str) -> Path:
 
 
 def run_bundle(store: Any, run_id: str, row: dict[str, Any] | None = None,
-               thinners: dict[int, TraceThinner] | None = None) -> ReportBundle:
+               thinners: dict[tuple[int, int], TraceThinner] | None = None) -> ReportBundle:
     """The report's content; the traces from ``thinners`` already fed, or read from the store."""
     row = row or store.run(run_id)
     sequence = _yaml(row.get("sequence_text"))

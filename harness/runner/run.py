@@ -21,6 +21,7 @@ from harness.runner.bay import open_bay
 from harness.runner.context import Run
 from harness.runner.evaluation import evaluate_run
 from harness.runner.prepare import Prepared, RunOptions, prepare
+from harness.runner.operators import AnsweringOperator, TerminalOperator
 from harness.runner.progress import GuardedDisplay, Progress
 from harness.runner.recorder import Recorder
 from harness.runner.signals import StopSignals, Terminated
@@ -98,13 +99,14 @@ def _run_on_bay(run_id: str, prepared: Prepared, station: Station, clock: Clock,
         with signals.obeyed():
             bay = open_bay(station, phases=prepared.sequence.transformer.phases)
     except InstrumentError as exc:
-        trip = Trip(f"instrument fault before energising: {exc}").as_dict()
-        return _finish(recorder, run_id, "tripped", trip, None, None, never, [], signals, options.defer_stopped_report)
+        fault = Trip(f"instrument fault before energising: {exc}").as_dict()
+        return _finish(recorder, run_id, "tripped", fault, None, None, never, [], signals, options.defer_stopped_report)
     except (KeyboardInterrupt, Terminated) as exc:
         return _finish(recorder, run_id, "aborted", None, None, None, never, [f"{exc or 'interrupted by Ctrl-C'}"],
                        signals, options.defer_stopped_report)
     recorder.set_instruments(run_id, bay.identities)
-    run = Run(run_id, prepared.sequence, station, clock, bay, recorder, progress, yes=options.yes)
+    operator = AnsweringOperator(bay.bay_control) if options.yes else TerminalOperator()
+    run = Run(run_id, prepared.sequence, station, clock, bay, recorder, progress, operator)
     try:
         status, trip = _steps(run, signals)
         safe = _final_safe_state(run, signals)

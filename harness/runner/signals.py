@@ -13,7 +13,7 @@ import contextlib
 import signal
 from typing import Any, Iterator
 
-_NAMES = {signal.SIGINT: "Ctrl-C", signal.SIGTERM: "SIGTERM"}
+_NAMES: dict[int, str] = {signal.SIGINT: "Ctrl-C", signal.SIGTERM: "SIGTERM"}
 
 
 class Terminated(Exception):

@@ -49,7 +49,7 @@ class Journal:
 
     def __init__(self, run_id: str, data_folder: Path):
         self.run_id = run_id
-        self._folders = (data_folder, Path(tempfile.gettempdir()))
+        self._folders: tuple[Path, ...] = (data_folder, Path(tempfile.gettempdir()))
         self._file: Any = None
         self.path: Path | None = None
         self.errors: list[str] = []

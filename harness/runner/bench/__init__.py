@@ -31,4 +31,5 @@ def run_benchmark(name: str, **options: Any) -> dict[str, Any]:
     """Run one benchmark with the options it takes (others given as None are left out)."""
     module, function = _BENCHMARKS[name]
     given = {k: v for k, v in options.items() if v is not None}
-    return getattr(importlib.import_module(module), function)(**given)  # type: ignore[no-any-return]
+    figures: dict[str, Any] = getattr(importlib.import_module(module), function)(**given)
+    return figures

@@ -35,7 +35,11 @@ def served_bay() -> Iterator[dict[str, str]]:
             "serve_forever(load_scenario('default'))")
     proc = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, text=True)
     try:
-        resources = dict(proc.stdout.readline().split() for _ in range(5))  # type: ignore[union-attr]
+        assert proc.stdout is not None
+        resources: dict[str, str] = {}
+        for _ in range(5):
+            role, resource = proc.stdout.readline().split()[:2]
+            resources[role] = resource
         yield resources
     finally:
         proc.terminate()
@@ -49,6 +53,7 @@ def _run_on(resources: dict[str, str], folder: Path) -> Iterator[Any]:
     from harness.runner.bay import open_bay
     from harness.runner.bench.startup import CHECK_SEQUENCE, examples_folder
     from harness.runner.context import Run
+    from harness.runner.operators import AnsweringOperator
     from harness.runner.prepare import RunOptions, prepare
     from harness.runner.progress import Progress
     from harness.runner.sim_station import sim_station
@@ -61,7 +66,8 @@ def _run_on(resources: dict[str, str], folder: Path) -> Iterator[Any]:
                                  station_text=station_text, software_version="bench", simulated=None)
         bay = open_bay(station)
         try:
-            run = Run(run_id, prepared.sequence, station, Clock(1.0), bay, store, progress, yes=True)
+            run = Run(run_id, prepared.sequence, station, Clock(1.0), bay, store, progress,
+                      AnsweringOperator(bay.bay_control))
             store.begin_step(run_id, 0, "hold", "overhead")
             run.step_index, run.step_title = 0, "overhead"
             run.energise()
@@ -91,7 +97,7 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
             _settled(applied, 0.0015, 0.4)
 
         def raw_reading() -> None:
-            [float(v) for v in raw.query(query).replace(",", ";").split(";")]
+            [float(v) for v in raw.query(query).replace(",", ";").split(";")]  # type: ignore[attr-defined]
 
         raw_us, harness_us = _alternating(raw_reading, harness_reading, rounds, n)
         raw.close()
@@ -133,7 +139,8 @@ def _alternating(a: Callable[[], None], b: Callable[[], None], rounds: int, n: i
     """Per-call microseconds of a and b in each round, the order alternating round by round."""
     times: dict[str, list[float]] = {"a": [], "b": []}
     for _ in range(50):
-        a(), b()
+        a()
+        b()
     for r in range(rounds):
         order = (("a", a), ("b", b)) if r % 2 == 0 else (("b", b), ("a", a))
         for key, fn in order:

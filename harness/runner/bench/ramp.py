@@ -94,31 +94,42 @@ def _impedance_pct(data: dict[str, Any]) -> float:
     return math.hypot(r, x) / (hv * hv / power) * 100
 
 
+def _nameplate_gain(run: Any, quantity: str) -> float:
+    """What a lab's controller would take from the nameplate: measured quantity per volt of
+    setpoint, the current through the guaranteed impedance (6 % when none is given)."""
+    factor = run.supervisor.setpoint_factor
+    if quantity == "voltage":
+        return float(factor)
+    g = run.sequence.guarantees
+    z_pct = getattr(g, "impedance", None) or 6.0
+    return 1.0 / (z_pct / 100 * run.rated("voltage") / factor / run.rated("current"))
+
+
 def _proportional(run: Any, quantity: str, target: float, tolerance_pct: float) -> Any:
     """The baseline: a proportional step on the setpoint from the nameplate's gain, read every
     P_PERIOD_S, done after three readings in a row inside the band."""
-    from harness.runner.steps.ramp import RampResult, _time_allowed, initial_gain, measured
+    from harness.runner.steps.ramp import RampResult, _time_allowed, measured
     from harness.safety import Trip
 
     start = run.clock.now()
-    gain = initial_gain(run, quantity)
-    deadline = start + _time_allowed(run, run.supervisor.limits.voltage)
-    inside, peak = 0, 0.0
+    gain = _nameplate_gain(run, quantity)
+    deadline = start + _time_allowed(run, run.supervisor.setpoint_limit)
+    inside, peak, first = 0, 0.0, None
     slew = run.station.limits.slew
     wait = P_PERIOD_S
-    run.send_setpoint(min(P_SHARE * target / gain, run.supervisor.limits.voltage))
+    run.send_setpoint(min(P_SHARE * target / gain, run.supervisor.setpoint_limit))
     wait += run.setpoint / slew
     while True:
         run.clock.sleep(wait)  # the source's slew to the new setpoint, then a reading period
         s = run.read()
         y = measured(s, quantity)
-        peak = max(peak, y)
+        peak, first = max(peak, y), y if first is None else first
         inside = inside + 1 if abs(y - target) <= tolerance_pct / 100 * target else 0
         if inside >= 3:
-            return RampResult(y, run.clock.now() - start, peak)
+            return RampResult(y, run.clock.now() - start, first, peak)
         before = run.setpoint
         wanted = before + P_SHARE * (target - y) / gain
-        run.send_setpoint(min(max(wanted, 0.0), run.supervisor.limits.voltage))
+        run.send_setpoint(min(max(wanted, 0.0), run.supervisor.setpoint_limit))
         wait = P_PERIOD_S + abs(run.setpoint - before) / slew
         if run.clock.now() > deadline:
             raise Trip("proportional ramp did not reach its target", quantity, y, target, run.step_title)

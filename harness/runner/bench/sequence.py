@@ -111,7 +111,7 @@ def _energised(events: list[dict[str, Any]]) -> list[tuple[float, float]]:
 def _step_start(events: list[dict[str, Any]], index: int) -> float | None:
     for e in events:
         if e["kind"] == "step-start" and isinstance(e.get("data"), dict) and e["data"].get("step") == index:
-            return e["t"]  # type: ignore[no-any-return]
+            return float(e["t"])
     return None
 
 

@@ -6,14 +6,16 @@ decorated with ``@register("kind")``; a duplicate registration fails at import.
 
 from __future__ import annotations
 
-from typing import Any, Callable
+from typing import Any, Callable, TypeVar
 
 Executor = Callable[[Any, Any], None]
+E = TypeVar("E", bound=Callable[..., None])
 REGISTRY: dict[str, Executor] = {}
 
 
-def register(kind: str) -> Callable[[Executor], Executor]:
-    def add(executor: Executor) -> Executor:
+def register(kind: str) -> Callable[[E], E]:
+    """Register ``executor(step: TheStepModel, run: Run)`` as the one that runs steps of ``kind``."""
+    def add(executor: E) -> E:
         if kind in REGISTRY:
             raise RuntimeError(f"step kind '{kind}' registered twice")
         REGISTRY[kind] = executor

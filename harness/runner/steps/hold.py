@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from harness.config.steps import Hold, Wait
 from harness.runner.context import Run
 from harness.runner.steps import register
 
@@ -15,14 +16,14 @@ def hold(run: Run, duration: float, interval: float, title: str) -> None:
 
 
 @register("hold")
-def execute_hold(step, run: Run) -> None:
+def execute_hold(step: Hold, run: Run) -> None:
     if not run.energised:
         run.warn(f"{step.title()}: hold with the output off; nothing to hold")
     hold(run, step.duration, step.interval, step.title())
 
 
 @register("wait")
-def execute_wait(step, run: Run) -> None:
+def execute_wait(step: Wait, run: Run) -> None:
     if run.energised:
         hold(run, step.duration, 1.0, step.title())
     else:

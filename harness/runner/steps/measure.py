@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from harness.config.steps import Measure
 from harness.calc.reduce import window_stats
 from harness.common.reading import QUANTITIES, Sample
 from harness.runner.context import MeasuredReading, Run
@@ -93,7 +94,7 @@ def _stats(window: list[Sample]) -> tuple[dict[str, float], dict[str, float], fl
 
 
 @register("measure")
-def execute(step, run: Run) -> None:
+def execute(step: Measure, run: Run) -> None:
     label = step.label or {"no-load": "no-load", "load-loss": "load loss", "none": "reading"}[step.test]
     r = measure(run, step.test, label, step.readings, step.interval, step.stability, step.max_readings)
     m = r.mean

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from harness.config.steps import Off
 from harness.runner.context import Run
 from harness.runner.steps import register
 from harness.safety import Trip
@@ -27,5 +28,5 @@ def switch_off(run: Run, why: str) -> None:
 
 
 @register("switch-off")
-def execute(step, run: Run) -> None:
+def execute(step: Off, run: Run) -> None:
     switch_off(run, step.title())

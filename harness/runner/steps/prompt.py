@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-import sys
-
+from harness.config.steps import Prompt
 from harness.runner.context import Run
+from harness.runner.operators import AnsweringOperator
 from harness.runner.steps import register
 from harness.runner.steps.off import switch_off
 
@@ -13,24 +13,14 @@ class OperatorAbort(Exception):
     """The operator declined a prompt; the run ends as aborted after the safe state."""
 
 
-def ask(text: str) -> bool:
-    sys.stderr.write(f"\nOPERATOR: {text}\n  The output is off and confirmed de-energised. Earth the terminals before "
-                     "touching them.\n  Type 'done' when finished, anything else to abort: ")
-    sys.stderr.flush()
-    answer = sys.stdin.readline()
-    return answer.strip().lower() == "done"
-
-
 @register("prompt")
-def execute(step, run: Run) -> None:
+def execute(step: Prompt, run: Run) -> None:
     switch_off(run, "before the prompt")
     run.event("prompt", step.text)
-    if run.yes:
-        if step.wiring is not None and run.bay.bay_control is not None:
-            run.bay.bay_control.set_wiring(step.wiring.fed, step.wiring.other)
-        run.event("prompt-answered", "answered by --yes on the simulated bay")
-    elif not ask(step.text):
+    if not run.operator.connect(step.text, step.wiring):
         raise OperatorAbort(f"operator declined: {step.text}")
+    if isinstance(run.operator, AnsweringOperator):
+        run.event("prompt-answered", "answered by --yes on the simulated bay")
     if step.wiring is not None:
         run.wiring = step.wiring
         run.gains.clear()

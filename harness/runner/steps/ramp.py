@@ -18,6 +18,7 @@ import math
 from collections import deque
 from dataclasses import dataclass
 
+from harness.config.steps import Ramp
 from harness.config.reach import (FIRST_SETPOINT_SHARE, FIXED_INCREMENT_S, LOWEST_PLAUSIBLE_IMPEDANCE_PCT,
                                   band_top, fixed_increment_volts)
 from harness.runner.context import Run, Sample
@@ -228,7 +229,7 @@ def _fixed_increment(run: Run, quantity: str, target: float, tolerance_pct: floa
 
 
 @register("ramp")
-def execute(step, run: Run) -> None:
+def execute(step: Ramp, run: Run) -> None:
     target = run.target_value(step, step.target)
     result = ramp_to(run, step.quantity, target, step.tolerance, step.method)
     unit = "V" if step.quantity == "voltage" else "A"

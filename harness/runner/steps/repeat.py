@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+from harness.config.steps import Repeat
+from harness.runner.context import Run
 from harness.runner.steps import register
 
 
 @register("repeat")
-def execute(step, run) -> None:
+def execute(step: Repeat, run: Run) -> None:
     from harness.runner.sequencer import run_steps
     for n in range(step.times):
         run.event("repeat", f"{step.title()}: pass {n + 1} of {step.times}")

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import statistics
 
+from harness.config.steps import Resistance
 from harness.calc.phases import phase_resistance
 from harness.runner.context import Run
 from harness.runner.steps import register
@@ -18,7 +19,7 @@ from harness.safety import ReadingFault
 
 
 @register("resistance")
-def execute(step, run: Run) -> None:
+def execute(step: Resistance, run: Run) -> None:
     meter, spec = run.bay.resistance_meter, run.station.instruments.resistance_meter
     if meter is None or spec is None:
         raise ReadingFault("the station has no resistance meter", step=run.step_title)

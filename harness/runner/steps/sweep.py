@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from harness.config.steps import Sweep
 from harness.runner.context import Run
 from harness.runner.steps import register
 from harness.runner.steps.measure import measure
@@ -9,7 +10,7 @@ from harness.runner.steps.ramp import ramp_to
 
 
 @register("sweep")
-def execute(step, run: Run) -> None:
+def execute(step: Sweep, run: Run) -> None:
     unit = "V" if step.quantity == "voltage" else "A"
     rated = run.rated(step.quantity)
     for index, text in enumerate(step.targets):

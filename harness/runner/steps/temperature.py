@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
+from harness.config.steps import Temperature
 from harness.runner.context import Run
 from harness.runner.steps import register
 from harness.safety import ReadingFault
 
 
 @register("temperature")
-def execute(step, run: Run) -> None:
+def execute(step: Temperature, run: Run) -> None:
     spec = run.station.instruments.thermometer
     if run.bay.thermometer is None or spec is None:
         raise ReadingFault("the station has no thermometer", step=run.step_title)

@@ -1,0 +1,50 @@
+"""The runner's seams, typed: what a run needs of the store, of the progress display and of the
+operator. Each has more than one implementation (the store and the recorder that journals when
+it fails; the live display and its guard; the operator at the terminal and the answering one of
+the simulated bay), and tests give their own."""
+
+from __future__ import annotations
+
+from typing import Any, Protocol
+
+from harness.common.reading import Sample
+from harness.config.checks import EffectiveLimits
+from harness.config.steps import Wiring
+
+
+class RunStore(Protocol):
+    """The writes of one run (harness.store.Store, or the recorder standing in for it)."""
+
+    def add_sample(self, run_id: str, step_index: int, t: float, channel: int, u_rms: float, u_mean: float,
+                   i_rms: float, p: float, freq: float, setpoint: float, tag: str | None = None) -> int: ...
+
+    def add_event(self, run_id: str, t: float | None, kind: str, text: str, data: Any = None) -> None: ...
+
+    def begin_step(self, run_id: str, index: int, kind: str, name: str) -> None: ...
+
+    def end_step(self, run_id: str, index: int, status: str) -> None: ...
+
+    def add_reading(self, run_id: str, step_index: int, tag: str, first_id: int, last_id: int,
+                    stats: dict[str, Any]) -> None: ...
+
+    def flush(self) -> None: ...
+
+
+class Display(Protocol):
+    """The operator's view of a run in progress."""
+
+    def step(self, index: int, kind: str, title: str) -> None: ...
+
+    def stage(self, text: str, done: float, total: float) -> None: ...
+
+    def event(self, kind: str, text: str) -> None: ...
+
+    def sample(self, sample: Sample, limits: EffectiveLimits) -> None: ...
+
+
+class Operator(Protocol):
+    """Who changes the connections at a prompt, with the bay de-energised and confirmed."""
+
+    def connect(self, text: str, wiring: Wiring | None) -> bool:
+        """Ask for the change; True once it is done, False when the operator declines."""
+        ...

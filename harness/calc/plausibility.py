@@ -9,7 +9,7 @@ from __future__ import annotations
 from typing import Any
 
 from harness.calc.phases import apparent_power, mean, rated_current
-from harness.calc.vector_group import mismatches, parse_vector_group
+from harness.common.vector_group import mismatches, parse_vector_group
 
 Problem = tuple[tuple[Any, ...], str, Any]
 

@@ -17,12 +17,13 @@ from __future__ import annotations
 
 import cmath
 import math
-import re
 from dataclasses import dataclass
 from functools import lru_cache
 from itertools import product
 
 import numpy as np
+
+from harness.common.vector_group import VectorGroup, parse_vector_group  # noqa: F401 - the notation, shared with the calculation core
 
 Connection = str  # "star" | "delta" | "zigzag"
 CONNECTIONS = ("star", "delta", "zigzag")
@@ -115,30 +116,6 @@ def arrangements(hv: Connection, lv: Connection, clock: int) -> tuple[Arrangemen
     possible = sorted({clock_of(a, b) for a in _options(hv, (1,)) for b in _options(lv, (1, -1))})
     raise ValueError(f"a {hv} HV and {lv} LV winding cannot give clock {clock}; "
                      f"possible: {', '.join(map(str, possible))}")
-
-
-_GROUP = re.compile(r"^([YDZ])(N?)([ydz])(n?)(\d{1,2})$")
-
-
-@dataclass(frozen=True)
-class VectorGroup:
-    hv: Connection
-    hv_neutral: bool
-    lv: Connection
-    lv_neutral: bool
-    clock: int
-
-
-def parse_vector_group(text: str) -> VectorGroup:
-    """``Dyn11``, ``YNd1``, ``Yzn5``: HV letter (N), LV letter (n), clock number."""
-    m = _GROUP.match(text.strip())
-    if not m or int(m.group(5)) > 11:
-        raise ValueError(f"vector group '{text}' is not like Dyn11, YNd1 or Yzn5 (clock 0..11)")
-    by_letter = {v: k for k, v in LETTERS.items()}
-    hv, lv = by_letter[m.group(1)], by_letter[m.group(3).upper()]
-    if (m.group(2) and hv == "delta") or (m.group(4) and lv == "delta"):
-        raise ValueError(f"vector group '{text}': a delta winding has no neutral")
-    return VectorGroup(hv, bool(m.group(2)), lv, bool(m.group(4)), int(m.group(5)))
 
 
 def vector_group_name(hv: Connection, hv_neutral: bool, lv: Connection, lv_neutral: bool, clock: int) -> str:

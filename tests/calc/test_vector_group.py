@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from harness.calc.vector_group import mismatches, parse_vector_group
+from harness.common.vector_group import mismatches, parse_vector_group
 
 
 @pytest.mark.parametrize("text, hv, lv, hvn, lvn, clock", [

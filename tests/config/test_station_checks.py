@@ -25,7 +25,7 @@ from harness.sim.scenario import load_scenario, scenario_names
 ROOT = Path(__file__).resolve().parents[2]
 ROUTINE = ROOT / "sequences" / "routine_single_phase.yaml"
 BASE = sim_station_text()
-SOURCE = "profile: generic-ac-source, timeout: 0.5 s"
+SOURCE = "profile: generic-ac-source, timeout: 2 s"
 SAFE = "safe_state: {deenergised_voltage: 5 V, deenergised_current: 0.05 A, confirm_timeout: 5 s}"
 READINGS = "readings: {late_after: 1 s, stale_after: 5 s, temperature_interval: 2 s}"
 

@@ -284,8 +284,8 @@ def _scenario_file(tmp_path: Path, old: str, new: str) -> Path:
 
 @pytest.mark.parametrize("old, new, message", [
     ("vector_group: Dyn11", "vector_group: Yyn0", "does not match the windings"),
-    ("vector_group: Dyn11", "vector_group: Dyn4", "cannot give clock 4"),
-    ("vector_group: Dyn11", "vector_group: Dxn11", "not like Dyn11"),
+    ("vector_group: Dyn11", "vector_group: Dyn4", "its clock number is odd, not 4"),
+    ("vector_group: Dyn11", "vector_group: Dxn11", "not a vector group"),
     ("  phases: 3\n", "", "three-phase units"),
     ("{hv: [1, 2, 3], lv: [4, 5, 6]}", "{hv: 1, lv: 2}", "three channels per winding"),
     ("connection: delta,", "connection: delta, neutral: true,", "delta winding has no neutral"),

@@ -7,6 +7,7 @@ too; nothing reaches a controller that has not passed the supervisor.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
@@ -32,6 +33,25 @@ RANGE_HEADROOM = 1.3  # range chosen for 130 % of the reading: room for drift be
 # The analyser inputs whose overload can stand for a reading beyond a limit (see Run.read).
 _OVERLOADED = {"u_rms": "voltage", "u_mean": "voltage", "i_rms": "current"}
 _UNIT = {"voltage": "V", "current": "A"}
+
+
+STANDING_OUT = 1.5  # a line current this many times the others' mean is the phase a protection saw
+
+
+def _standing_out(samples: list[Sample]) -> tuple[str | None, str]:
+    """The phase whose line current stood far above the others in the last readings before the
+    source switched itself off (a shorted turn on one limb, say), and a clause saying so; none
+    when the currents were alike (the protection cannot then be put on one phase)."""
+    if not samples or len(samples[0].phases) != 3:
+        return None, ""
+    last = max(samples, key=lambda s: max(ph.i_rms for ph in s.phases))
+    currents = [ph.i_rms for ph in last.phases]
+    top = max(range(3), key=lambda k: currents[k])
+    others = (sum(currents) - currents[top]) / 2
+    if others <= 0 or currents[top] < STANDING_OUT * others:
+        return None, ""
+    listed = ", ".join(f"{i:.4g}" for i in currents)
+    return f"L{top + 1}", f"; the line currents before it were {listed} A: phase L{top + 1} stood out"
 
 
 @dataclass
@@ -203,6 +223,7 @@ class Run:
                                         ph.p, freq, self.setpoint, tag)
             first = sid if first < 0 else first
         sample = combine(first, t1, phases, freq, self.setpoint)
+        before = self.last_sample
         self.supervisor.check_reading(sample, age)
         fault = unbalance(sample, self.supervisor.limits, self.wiring is not None and self.wiring.other == "short",
                           self.step_title)
@@ -210,7 +231,7 @@ class Run:
             raise fault
         self.last_sample = sample
         self._watch_temperature(t1)
-        self._watch_source(t1)
+        self._watch_source(t1, before)
         self.progress.sample(sample, self.supervisor.limits)
         return sample
 
@@ -232,9 +253,12 @@ class Run:
         limit = getattr(limits, quantity)
         if held < limit * (1 - 1e-9):   # asked as limit / ratio: allow the rounding of that division
             return None
-        return LimitTrip(f"{quantity} limit: the analyser's {quantity} input is over range, on a range "
+        channel = re.search(r"of channel (\d+)", exc.quantity)
+        phase = f"L{channel.group(1)}" if channel and self.sequence.transformer.phases == 3 else None
+        on = f" on phase {phase}" if phase else ""
+        return LimitTrip(f"{quantity} limit{on}: the analyser's {quantity} input is over range, on a range "
                          f"that holds the limit of {limit:.4g} {_UNIT[quantity]}",
-                         quantity, None, limit, self.supervisor.step, self.clock.now())
+                         quantity, None, limit, self.supervisor.step, self.clock.now(), phase)
 
     def _watch_temperature(self, t: float) -> None:
         if not self.energised or t < self._next_temperature_t:
@@ -244,15 +268,16 @@ class Run:
         if value is not None:
             self.supervisor.check_temperature(value)
 
-    def _watch_source(self, t: float) -> None:
+    def _watch_source(self, t: float, before: Sample | None) -> None:
         """Read the output state back now and then: it feeds the source's watchdog, and an output
         that turned itself off (its protection or watchdog) is a fault, not a reading."""
         if not self.energised or t < self._next_source_t:
             return
         self._next_source_t = t + self.station.readings.source_check_interval
         if not self.bay.source.output_is_on():
-            raise ReadingFault("the source output turned off by itself (its protection or watchdog)",
-                               step=self.step_title, time=t)
+            phase, seen = _standing_out([s for s in (before, self.last_sample) if s is not None])  # last: this one
+            raise ReadingFault("the source output turned off by itself (its protection or watchdog)" + seen,
+                               step=self.step_title, time=t, phase=phase)
 
     def read_temperature(self, name: str) -> float | None:
         thermometer = self.bay.thermometer

@@ -126,7 +126,7 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
         first = y if first is None else first
         furthest = y if math.isnan(furthest) else (max(furthest, y) if first <= target else min(furthest, y))
         if quantity == "voltage":
-            _stop_before_current_limit(run, previous, s, target)
+            _stop_before_current_limit(run, previous, s, target, target * (1 + band))
         previous = s
         if not applied or s.u_source != applied[-1][1]:
             applied.append((s.t, s.u_source))  # a repeated value is the same analyser update, not a settled source
@@ -162,18 +162,22 @@ def _gain(points: deque[tuple[float, float]]) -> float:
     return sum(u * y for u, y in points) / sum(u * u for u, _ in points)
 
 
-def _stop_before_current_limit(run: Run, previous: Sample | None, s: Sample, target: float) -> None:
+def _stop_before_current_limit(run: Run, previous: Sample | None, s: Sample, target: float, ceiling: float) -> None:
     """A no-load ramp's magnetising current grows much faster than the voltage near the core's
     knee. From the last two readings, the local exponent n of I ~ U**n; when the voltage, rising
-    by GUARD_STEPS more steps like its last, would bring the current to the step's current limit,
-    stop raising before a reading crosses it."""
+    by GUARD_STEPS more steps like its last but no higher than the top of the target's band (the
+    ramp commands no more), would bring the current to the step's current limit, stop raising
+    before a reading crosses it. (Readings that come sparsely, on a busy host or a fast simulated
+    clock, make the last step large: without the ceiling the guard would foresee voltages the ramp
+    never asks for.)"""
     if previous is None or previous.u_mean < LEARN_FROM * target or s.u_mean >= target:
         return
     i_now, i_before = highest_current(s), highest_current(previous)  # the outer limbs of a three-phase core draw most
     if i_before <= 0 or i_now <= i_before or s.u_mean <= previous.u_mean * (1 + GUARD_MIN_RISE):
         return
     exponent = math.log(i_now / i_before) / math.log(s.u_mean / previous.u_mean)
-    ahead = i_now * (1 + GUARD_STEPS * (s.u_mean / previous.u_mean - 1)) ** exponent
+    reach = min(s.u_mean * (1 + GUARD_STEPS * (s.u_mean / previous.u_mean - 1)), ceiling)
+    ahead = i_now * (reach / s.u_mean) ** exponent
     limit = run.supervisor.limits.current
     if ahead >= limit:
         phase = f"L{[ph.i_rms for ph in s.phases].index(i_now) + 1}" if len(s.phases) == 3 else None

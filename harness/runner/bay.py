@@ -6,8 +6,9 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from drivers import open_instrument
+from drivers.errors import InstrumentError
 from harness.config.station import Instrument, Station
-from harness.config.station_checks import ROLE_KINDS
+from harness.config.station_checks import ROLE_KINDS, serial_mismatches
 
 
 @dataclass
@@ -50,6 +51,9 @@ def open_bay(station: Station, rm: Any = None, phases: int = 1) -> Bay:
                                          **options)
             opened[role] = instrument
             identities.append(_identity(role, spec, instrument.identify()))
+        mismatches = serial_mismatches(station, identities)
+        if mismatches:
+            raise InstrumentError("; ".join(mismatches), "station", "*IDN?")
     except BaseException:
         for instrument in opened.values():
             try:

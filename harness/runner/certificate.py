@@ -49,10 +49,12 @@ def _reference(standard: str, given: Any) -> float | None:
         return None
 
 
-def temperature_rows(events: list[dict[str, Any]], labels: dict[int, str]) -> list[dict[str, Any]]:
+def temperature_rows(events: list[dict[str, Any]], labels: dict[int, str], record: dict[str, Any]
+                     ) -> list[dict[str, Any]]:
     """Ambient, oil and winding temperatures as read during the run, each with the test it
     belongs to: the thermometer steps, the core (oil) temperature of a no-load reading, the
-    winding temperature at each resistance and each load-loss reading."""
+    winding temperature at each resistance measurement, and the mean winding temperature the
+    load-loss evaluation used (the record's)."""
     rows: list[dict[str, Any]] = []
     step = None
     for event in events:
@@ -69,6 +71,10 @@ def temperature_rows(events: list[dict[str, Any]], labels: dict[int, str]) -> li
         elif kind == "resistance":
             rows.append({"when": f"{step or 'resistance'} ({str(data.get('winding', '')).upper()})",
                          "ambient": None, "oil": None, "winding": data.get("temperature")})
+    load = record.get("load") if isinstance(record.get("load"), dict) else {}
+    if load.get("temperature") is not None:
+        rows.append({"when": "load-loss test: mean winding temperature, as evaluated", "ambient": None,
+                     "oil": None, "winding": load["temperature"]})
     return rows
 
 

@@ -85,7 +85,7 @@ def certificate_of(store: Any, row: dict[str, Any], sequence: dict[str, Any], la
     approval = {**cert.approval_block(approvals["rows"], sequence.get("operator"), row.get("finished")),
                 "results_sha256": approvals["results_sha256"]}
     return {"resistances": cert.resistance_rows(row["events"], transformer, standard),
-            "temperatures": cert.temperature_rows(row["events"], labels),
+            "temperatures": cert.temperature_rows(row["events"], labels, record),
             "calibration": cert.calibration_rows(_yaml(row.get("station_text")), row["instruments"], row.get("started")),
             "approval": approval, "time_scale": simulated.get("time_scale")}
 

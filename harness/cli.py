@@ -75,7 +75,8 @@ def _parser() -> argparse.ArgumentParser:
     app = sub.add_parser("approve", help="record a check or approval of a finished run (append-only)")
     app.add_argument("run", metavar="RUN_ID")
     app.add_argument("--by", required=True, metavar="NAME", help="who checked or approved")
-    app.add_argument("--role", required=True, metavar="ROLE", help="e.g. checked, approved, test engineer")
+    app.add_argument("--role", required=True, metavar="ROLE", help="'checked' or 'approved' fill the report's sign-off rows (only "
+                     "'approved' lifts its NOT YET APPROVED mark); any other role is listed as given")
     app.add_argument("--note", metavar="TEXT")
 
     runs = sub.add_parser("runs", help="list stored runs")

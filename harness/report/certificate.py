@@ -124,7 +124,8 @@ def approval_rows(approval: Any) -> dict[str, Any]:
     given = {r["role"].lower() for r in rows if r["valid"]}
     missing = [role for role in SIGN_OFF_ROLES if role not in given]
     return {"tested_by": str(approval.get("tested_by") or fmt.DASH), "tested": fmt.when_text(approval.get("tested")),
-            "rows": rows, "missing": missing, "approved": bool(approval.get("approved")),
+            "rows": rows, "missing": missing,
+            "approved": bool(approval.get("approved")) and "approved" not in missing,
             "changed_after": bool(approval.get("changed_after")),
             "results_hash": str(approval.get("results_sha256") or "")}
 

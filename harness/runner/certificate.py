@@ -80,8 +80,9 @@ def temperature_rows(events: list[dict[str, Any]], labels: dict[int, str], recor
 
 def approval_block(approvals: list[dict[str, Any]], operator: Any, finished: Any) -> dict[str, Any]:
     """Tested by (the sequence's operator, at the run's end), then each check or approval in order;
-    ``approved`` is False until a row whose hash matches the results stored now exists."""
-    valid = [a for a in approvals if a.get("results_match")]
+    ``approved`` is False until a row of role ``approved`` whose hash matches the results stored
+    now exists (a ``checked`` row, or an approval of other results, does not approve)."""
+    valid = [a for a in approvals if a.get("results_match") and str(a.get("role", "")).strip().lower() == "approved"]
     return {"tested_by": operator, "tested": finished, "rows": approvals,
             "approved": bool(valid), "changed_after": any(not a.get("results_match") for a in approvals)}
 

@@ -120,14 +120,25 @@ def approval_rows(approval: Any) -> dict[str, Any]:
     rows = [{"role": str(a.get("role") or fmt.DASH), "name": str(a.get("name") or fmt.DASH),
              "when": fmt.when_text(a.get("approved")), "note": str(a.get("note") or ""),
              "hash": str(a.get("results_sha256") or "")[:16],
-             "valid": bool(a.get("results_match"))} for a in approval.get("rows") or []]
+             "valid": bool(a.get("results_match")), "open": False} for a in approval.get("rows") or []]
     given = {r["role"].lower() for r in rows if r["valid"]}
     missing = [role for role in SIGN_OFF_ROLES if role not in given]
     return {"tested_by": str(approval.get("tested_by") or fmt.DASH), "tested": fmt.when_text(approval.get("tested")),
-            "rows": rows, "missing": missing,
+            "rows": _sign_off_order(rows), "missing": missing,
             "approved": bool(approval.get("approved")) and "approved" not in missing,
             "changed_after": bool(approval.get("changed_after")),
             "results_hash": str(approval.get("results_sha256") or "")}
+
+
+def _sign_off_order(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Checked, then approved (an open row where there is none yet), then any other role and any
+    approval of other results, each in the order given."""
+    ordered: list[dict[str, Any]] = []
+    for role in SIGN_OFF_ROLES:
+        mine = [r for r in rows if r["valid"] and r["role"].lower() == role]
+        ordered += mine or [{"role": role, "name": "not yet", "when": "", "note": "", "hash": "", "valid": True,
+                             "open": True}]
+    return ordered + [r for r in rows if r not in ordered]
 
 
 def time_scale_text(scale: Any) -> str | None:

@@ -144,8 +144,8 @@ def _sign_off_order(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
 def time_scale_text(scale: Any) -> str | None:
     if not fmt.is_number(scale):
         return None
-    return (f"Simulated bay, run at {fmt.num(scale)} × real time: bay times (t in the event log, trace axes) "
-            f"are the simulated bay's seconds; the run took about 1/{fmt.num(scale)} of them on the clock.")
+    return (f"Simulated bay run at {fmt.num(scale)} × real time: every time shown (event log, trace axes) "
+            f"is in the bay's seconds.")
 
 
 FOOTER_FONT = 'font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 8pt; color: #333;'

@@ -53,6 +53,7 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--time-scale", type=_scale, metavar="X", help="simulated bay speed-up (default 20)")
     run.add_argument("--yes", action="store_true", help="answer prompts (simulated bay only)")
     run.add_argument("--json", action="store_true")
+    run.add_argument("--pdf", action="store_true", help="also print the report to report.pdf (headless Chromium)")
 
     chk = sub.add_parser("check", help="validate a sequence against a station; nothing is energised")
     chk.add_argument("sequence", type=Path)
@@ -69,6 +70,14 @@ def _parser() -> argparse.ArgumentParser:
 
     rep = sub.add_parser("report", help="rebuild a run's reports from the store")
     rep.add_argument("run", metavar="RUN_ID_OR_DIR")
+    rep.add_argument("--pdf", action="store_true", help="also print it to report.pdf (A4, headless Chromium)")
+
+    app = sub.add_parser("approve", help="record a check or approval of a finished run (append-only)")
+    app.add_argument("run", metavar="RUN_ID")
+    app.add_argument("--by", required=True, metavar="NAME", help="who checked or approved")
+    app.add_argument("--role", required=True, metavar="ROLE", help="'checked' or 'approved' fill the report's sign-off rows (only "
+                     "'approved' lifts its NOT YET APPROVED mark); any other role is listed as given")
+    app.add_argument("--note", metavar="TEXT")
 
     runs = sub.add_parser("runs", help="list stored runs")
     runs.add_argument("--json", action="store_true")
@@ -124,7 +133,10 @@ def cmd_run(args: argparse.Namespace) -> int:
 
     # At a terminal, a run that stopped shows its outcome at once; its report follows in the background.
     options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes,
-                         quiet=args.json, defer_stopped_report=not args.json)
+                         quiet=args.json, defer_stopped_report=not args.json, pdf=args.pdf)
+    if args.pdf:
+        from harness.report.pdf import find_chromium
+        find_chromium()  # no browser: say so before anything is begun
     _check_faults(options)
     from harness.runner.reporting import write_in_background
     store = Store()
@@ -140,9 +152,24 @@ def cmd_run(args: argparse.Namespace) -> int:
         else:
             print_outcome(outcome)
             if outcome.report is None and outcome.journal is None:
-                report, _ = write_in_background(store, outcome.run_id)
+                report, _ = write_in_background(store, outcome.run_id, pdf=args.pdf)
                 print(f"  report: being written to {report} (in the background)")
+        if args.pdf and outcome.report is not None:
+            _print_run_pdf(Path(outcome.report), quiet=args.json)
     return outcome.exit_code
+
+
+def _print_run_pdf(report: Path, quiet: bool) -> None:
+    """The run's outcome stands whatever happens here: a PDF that cannot be printed is said, and
+    `harness report RUN_ID --pdf` tries again."""
+    from harness.report.pdf import print_pdf
+    try:
+        path = print_pdf(report)
+    except HarnessError as exc:
+        print(f"harness: the PDF was not written: {exc}", file=sys.stderr)
+        return
+    if not quiet:
+        print(f"  pdf:    {path}")
 
 
 def _close_after_run(store: Any) -> None:
@@ -167,6 +194,8 @@ def cmd_check(args: argparse.Namespace) -> int:
     prepared = prepare(RunOptions(args.sequence, args.station, args.sim))
     steps = len(prepared.sequence.steps)
     print(f"{args.sequence}: valid against {prepared.station_file} ({steps} steps); nothing was energised")
+    for line in prepared.calibration:
+        print(f"  {line}")
     return 0
 
 
@@ -203,6 +232,22 @@ def cmd_report(args: argparse.Namespace) -> int:
     finally:
         store.close()
     print(path)
+    if args.pdf:
+        from harness.report.pdf import print_pdf
+        print(print_pdf(path))
+    return 0
+
+
+def cmd_approve(args: argparse.Namespace) -> int:
+    from harness.store import Store
+    store = Store()
+    try:
+        run_id = store.resolve(args.run)
+        row = store.approve(run_id, name=args.by, role=args.role, note=args.note)
+    finally:
+        store.close()
+    print(f"run {run_id}: {row['role']} by {row['name']} at {row['approved']} "
+          f"(results sha256 {row['results_sha256'][:16]}...); `harness report {run_id}` shows it")
     return 0
 
 
@@ -274,7 +319,7 @@ def cmd_bench(args: argparse.Namespace) -> int:
 
 
 _COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {
-    "run": cmd_run, "check": cmd_check, "evaluate": cmd_evaluate, "report": cmd_report, "runs": cmd_runs,
+    "run": cmd_run, "check": cmd_check, "evaluate": cmd_evaluate, "report": cmd_report, "approve": cmd_approve, "runs": cmd_runs,
     "schema": cmd_schema, "sim": cmd_sim, "bench": cmd_bench,
 }
 

@@ -14,7 +14,8 @@ from typing import Annotated, Any, Literal
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, model_validator
 from pydantic_core import InitErrorDetails, PydanticCustomError, ValidationError
 
-from harness.calc import plausibility
+from harness.calc import nameplate, plausibility
+from harness.calc.nameplate import ThermalClass
 from harness.calc.chain import MeasurementChain
 from harness.calc.phases import PhaseCurrent, PhaseResistance, PhaseValue, PhaseVoltage, values_of
 from harness.common import yamlio
@@ -78,10 +79,16 @@ class Transformer(_Model):
     highest_voltage: PositiveVoltage | None = Field(
         None, description="highest voltage for equipment Um of the hv winding (rms, line-to-line); classes the "
                           "unit for the EU ecodesign rule (Regulation 548/2014 Article 2)")
+    # Rating-plate fields the certificate states (harness.calc.nameplate checks them).
+    cooling: str | None = Field(None, description="cooling code, e.g. ONAN, ONAF (IEC 60076-2); AN, AF dry-type")
+    thermal_class: ThermalClass | None = Field(None, description="insulation thermal class, degC (IEC 60085)")
+    year_of_manufacture: int | None = Field(None, strict=True, description="year the unit was made")
+    standard_edition: str | None = Field(None, description="standard and edition, e.g. IEC 60076-1:2011")
 
     @model_validator(mode="after")
     def _consistent(self) -> Transformer:
-        _raise(plausibility.transformer_problems(self))
+        _raise(plausibility.transformer_problems(self) + nameplate.cooling_problems(self.cooling, self.insulation)
+               + nameplate.year_problems(self.year_of_manufacture))
         return self
 
 
@@ -203,7 +210,8 @@ class Record(_Model):
 
     @model_validator(mode="after")
     def _plausible(self) -> Record:
-        _raise(plausibility.record_problems(self) + _chain_problems(self))
+        _raise(plausibility.record_problems(self) + _chain_problems(self)
+               + nameplate.edition_problems(self.transformer.standard_edition, self.standard))
         return self
 
 
@@ -213,6 +221,11 @@ def _chain_problems(r: Record) -> list[tuple[tuple[Any, ...], str, Any]]:
         return []
     return [(("measurement_chain", "channels"), f"a three-phase unit is measured on three analyser channels; "
              f"the chain gives {len(chain.channels)}", len(chain.channels))]
+
+
+def raise_problems(problems: list[tuple[tuple[Any, ...], str, Any]]) -> None:
+    """Raise the (location, reason, value) triples as one located validation error."""
+    _raise(problems)
 
 
 def _raise(problems: list[tuple[tuple[Any, ...], str, Any]]) -> None:

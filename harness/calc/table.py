@@ -80,11 +80,11 @@ def _regulation(data: dict[str, Any]) -> Table:
     rows = [(r["load_pu"], r["power_factor"], "unity" if r["power_factor"] == 1.0 else
              ("lagging" if r["lagging"] else "leading"), r["regulation_pct"], r["voltage_drop_pct"])
             for r in data["regulation"]]
-    return _table("Regulation", ("load, p.u.", "power factor", "", "exact, %", "IEC 60076-8 drop, %"), rows)
+    return _table("Regulation", ("load, p.u.", "power factor", "sense", "exact, %", "IEC 60076-8 drop, %"), rows)
 
 
 def _checks(data: dict[str, Any]) -> Table:
-    rows = [(c["quantity"].replace("_", " "), c["value"], c["guaranteed"], _limit(c["limit"]), c["unit"],
+    rows = [(_CHECK_LABELS.get(c["quantity"], c["quantity"].replace("_", " ").capitalize()), c["value"], c["guaranteed"], _limit(c["limit"]), c["unit"],
              _verdict(c), c.get("source") or "-") for c in data["checks"]]
     source = data.get("tolerance_source")
     title = f"Checks against guarantees ({source} tolerances)" if source else "Checks against guarantees"
@@ -96,6 +96,11 @@ def _compliance(data: dict[str, Any]) -> Table:
              "PASS" if c["passed"] else "FAIL", c["source"]) for c in data["compliance"]]
     return _table("Efficiency regulations", ("rule", "quantity", "value", "limit", "margin", "unit", "verdict",
                                              "source"), rows)
+
+
+# The checks' quantities in the words the report uses ("No-load loss", with its hyphen).
+_CHECK_LABELS = {"no_load_loss": "No-load loss", "no_load_current": "No-load current", "load_loss": "Load loss",
+                 "total_loss": "Total losses", "impedance": "Short-circuit impedance"}
 
 
 def _verdict(check: dict[str, Any]) -> str:
@@ -128,7 +133,7 @@ def _corrections(data: dict[str, Any]) -> Table:
             ("power_corrected_W", "power corrected, W"), ("power_correction_pct", "power correction, %"))
     tests = [t for t in ("no_load", "load") if t in data["corrections"]]
     rows = [(label, *(data["corrections"][t][k] for t in tests)) for k, label in keys]
-    return _table("Measurement-chain corrections", ("", *(t.replace("_", "-") + " test" for t in tests)), rows)
+    return _table("Measurement-chain corrections", ("quantity", *(t.replace("_", "-") + " test" for t in tests)), rows)
 
 
 def _limit(limit: Any) -> str:

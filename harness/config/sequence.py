@@ -4,9 +4,10 @@ from __future__ import annotations
 
 from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import BaseModel, ConfigDict, Field, model_validator
 
-from harness.calc.record import ComplianceRule, Guarantees, Tolerances, Transformer, Waveform
+from harness.calc.nameplate import edition_problems
+from harness.calc.record import ComplianceRule, raise_problems, Guarantees, Tolerances, Transformer, Waveform
 from harness.config.station import FormatVersion, Limits
 from harness.config.steps import AnyStep
 
@@ -38,3 +39,8 @@ class Sequence(BaseModel):
         None, min_length=1, description="efficiency regulations to check the unit against")
     limits: Limits = Field(description="test limits: each must sit inside the station's")
     steps: list[AnyStep] = Field(min_length=1)
+
+    @model_validator(mode="after")
+    def _edition_of_standard(self) -> "Sequence":
+        raise_problems(edition_problems(self.transformer.standard_edition, self.standard))
+        return self

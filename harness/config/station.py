@@ -55,7 +55,11 @@ class Instrument(Frozen):
     resource: str = Field(min_length=1, description="VISA resource string, e.g. TCPIP0::10.0.0.5::5025::SOCKET")
     profile: str = Field(min_length=1, description="command profile: a name in drivers/profiles or a path")
     timeout: Duration = Field(2.0, gt=0, le=b.MAX_REPLY_TIMEOUT_S, description="reply timeout (real seconds)")
-    calibration_due: CalibrationDate | None = Field(None, description="YYYY-MM-DD")
+    calibration_due: CalibrationDate | None = Field(None, description="YYYY-MM-DD; past it, a run stops before energising")
+    calibration_certificate: str | None = Field(None, min_length=1, description="the calibration certificate's id")
+    serial: str | None = Field(None, min_length=1, description="serial number; compared with the one *IDN? gives")
+    allow_expired_calibration: str | None = Field(None, min_length=8, description=(
+        "the lab's reason to run this instrument past its calibration_due (shown on the report)"))
     channels: dict[str, Channels] = Field(default_factory=dict, description=(
         "named channels (thermometer, resistance meter); a three-phase unit's resistance meter takes "
         "three per winding, the line-to-line pairs 1-2, 2-3, 3-1"))

@@ -12,6 +12,7 @@ not import the drivers.
 
 from __future__ import annotations
 
+import datetime as dt
 from typing import Any, Callable
 
 from harness.common.errors import InputError, InputErrors
@@ -118,3 +119,55 @@ def _safe_state_problems(station: Station) -> list[tuple[tuple[str, ...], str]]:
 def _fraction_message(name: str, value: float, unit: str, hard: float) -> str:
     return (f"{name}: {value:g} {unit} is more than {DEENERGISED_FRACTION:.0%} of the bay's hard limit "
             f"({hard:g} {unit}): 'de-energisation confirmed' would include a live bay")
+
+
+def calibration_errors(station: Station, loaded: LoadedYaml, today: dt.date) -> list[InputError]:
+    """An instrument past its ``calibration_due`` on ``today`` (the test date), unless the station
+    allows it with a reason (``allow_expired_calibration``): one located error each."""
+    errors = []
+    for role, spec in _instruments(station):
+        if spec.calibration_due is not None and spec.calibration_due < today and not spec.allow_expired_calibration:
+            errors.append(loaded.error(("instruments", role, "calibration_due"), (
+                f"instruments.{role}.calibration_due: calibration expired on {spec.calibration_due.isoformat()} "
+                f"(test date {today.isoformat()}); recalibrate it, or let the lab allow it with "
+                f"instruments.{role}.allow_expired_calibration: REASON")))
+    return errors
+
+
+def calibration_lines(station: Station, today: dt.date) -> list[str]:
+    """One line per instrument: its calibration state on ``today`` and the serial *IDN? must give."""
+    lines = []
+    for role, spec in _instruments(station):
+        due = spec.calibration_due
+        if due is None:
+            state = "no calibration date given"
+        elif due < today:
+            state = f"calibration EXPIRED {due.isoformat()}, allowed by the station: {spec.allow_expired_calibration}"
+        else:
+            state = f"calibrated until {due.isoformat()}"
+        if spec.calibration_certificate:
+            state += f" (certificate {spec.calibration_certificate})"
+        serial = (f"serial {spec.serial}, compared with *IDN? when the run opens it" if spec.serial
+                  else "no serial given (*IDN? not compared)")
+        lines.append(f"{role.replace('_', ' ')}: {state}; {serial}")
+    return lines
+
+
+def serial_mismatches(station: Station, identities: list[dict[str, Any]]) -> list[str]:
+    """Instruments whose *IDN? serial is not the one the station names (another unit is
+    connected than the one whose calibration the station states)."""
+    given = dict(_instruments(station))
+    found = []
+    for identity in identities:
+        spec = given.get(identity.get("role"))
+        if spec is not None and spec.serial and str(identity.get("serial") or "").strip() != spec.serial.strip():
+            found.append(f"{identity['role'].replace('_', ' ')}: *IDN? gives serial '{identity.get('serial')}', "
+                         f"the station names '{spec.serial}': another instrument is connected than the "
+                         f"one the station's calibration is for")
+    return found
+
+
+def _instruments(station: Station) -> list[tuple[str, Instrument]]:
+    """The measuring and supplying instruments (the simulated bay's control is not calibrated)."""
+    return [(role, spec) for role in ROLE_KINDS if role != "bay_control"
+            and (spec := getattr(station.instruments, role)) is not None]

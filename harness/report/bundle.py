@@ -70,11 +70,17 @@ class ReportBundle:
     trip: dict[str, Any] | None = None
     """cause, quantity, value, limit, step, time (and t_s when known)."""
     cautions: list[str] = field(default_factory=lambda: list(DEFAULT_CAUTIONS))
+    certificate: dict[str, Any] = field(default_factory=dict)
+    """What a signed certificate adds: resistances [{winding, terminals, ohm, temperature_C, ohm_ref,
+    reference_C, constant, material}], temperatures [{when, ambient, oil, winding}], calibration
+    [{role, due, certificate, serial, idn_serial, expired, allowed}], approval {tested_by, tested,
+    rows [{approved, name, role, note, results_sha256, results_match}], approved, changed_after,
+    results_sha256}, time_scale (simulated bay)."""
 
     def __post_init__(self) -> None:
         _require_mapping("run", self.run)
         _require_status(self.run.get("status"))
-        for name in ("unit", "results"):
+        for name in ("unit", "results", "certificate"):
             _require_mapping(name, getattr(self, name))
         for name in ("instruments", "readings", "traces", "sweep", "events"):
             _require_records(name, getattr(self, name))

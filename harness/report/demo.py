@@ -96,6 +96,10 @@ def demo_results() -> dict[str, Any]:
         "checks": _checks(load),
         "warnings": ["load-loss test at 95 % of rated current: loss and impedance scaled to rated current"],
         "uncertainty": _uncertainty(),
+        "load_series": [{"reading": k + 1, "winding_temperature_C": t, "current_A": 4.986, "power_W": p,
+                         "loss_W": p / TEST_CURRENT_PU**2, "loss_ref_W": ref}
+                        for k, (t, p, ref) in enumerate(((21.6, 1520.0, 1873.6), (24.9, 1538.2, 1873.1),
+                                                         (27.8, 1554.1, 1874.0)))],
     }
 
 
@@ -144,6 +148,37 @@ def _unit() -> dict[str, Any]:
         "lv": {"rated_voltage_V": LV_V, "connection": "star"},
         "winding_material": "copper", "serial": "HEW-26-0417",
         "maker": "Harrowgate Electric Works", "description": "100 kVA oil-immersed distribution transformer",
+        "cooling": "ONAN", "insulation": "liquid-immersed", "thermal_class": 105, "year_of_manufacture": 2026,
+        "standard_edition": "IEC 60076-1:2011",
+    }
+
+
+def _certificate() -> dict[str, Any]:
+    """Resistances (line-to-line, converted with C = 235 to 75 degC), temperatures, calibration, one check."""
+    def resistance(winding: str, pair: str, ohm: float, t: float) -> dict[str, Any]:
+        return {"winding": winding, "terminals": pair, "ohm": ohm, "temperature_C": t,
+                "ohm_ref": ohm * (235.0 + 75.0) / (235.0 + t), "reference_C": 75.0, "constant": 235.0,
+                "material": "copper"}
+
+    def calibration(role: str, due: str | None, cert: str | None, serial: str) -> dict[str, Any]:
+        return {"role": role, "due": due, "certificate": cert, "serial": serial, "idn_serial": serial,
+                "expired": False, "allowed": None}
+
+    return {
+        "resistances": [resistance("HV", pair, ohm, 20.4) for pair, ohm in (("1-2", 12.84), ("2-3", 12.91), ("3-1", 12.87))]
+        + [resistance("LV", pair, ohm, 20.4) for pair, ohm in (("1-2", 0.01532), ("2-3", 0.01541), ("3-1", 0.01536))],
+        "temperatures": [{"when": "1: ambient and oil before the test", "ambient": 19.8, "oil": 20.3, "winding": 20.4},
+                         {"when": "3: no-load at rated voltage", "ambient": None, "oil": 20.5, "winding": None},
+                         {"when": "load-loss test: mean winding temperature, as evaluated", "ambient": None,
+                          "oil": None, "winding": 21.6}],
+        "calibration": [calibration("source", "2027-04-30", "BW-CAL-26-118", "BW30-1187"),
+                        calibration("analyser", "2027-02-28", "CM-CAL-26-0412", "CM73-00912"),
+                        calibration("resistance_meter", "2027-02-28", "CM-CAL-26-0413", "CMR-3301"),
+                        calibration("thermometer", None, None, "BWT-0442")],
+        "approval": {"tested_by": "R. Adeyemi", "tested": "2026-11-18T09:41:37+00:00",
+                     "rows": [{"approved": "2026-11-18T11:05:12+00:00", "name": "J. Okafor", "role": "checked",
+                               "note": "", "results_sha256": "5d0c2f6a9be14c73" + "0" * 48, "results_match": True}],
+                     "approved": False, "changed_after": False, "results_sha256": "5d0c2f6a9be14c73" + "0" * 48},
     }
 
 
@@ -222,7 +257,7 @@ def demo_bundle() -> ReportBundle:
     return ReportBundle(
         run=_run(), unit=_unit(), instruments=_instruments(), results=demo_results(), readings=_readings(),
         traces=_traces(), sweep=_sweep(), events=_events(),
-        warnings=["thermometer has no calibration due date in the station file"],
+        warnings=["thermometer has no calibration due date in the station file"], certificate=_certificate(),
     )
 
 

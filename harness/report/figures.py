@@ -151,6 +151,35 @@ def excitation_figure(sweep: Sequence[Mapping[str, Any]]) -> str | None:
     return to_svg(fig, "fig-excitation")
 
 
+# --------------------------------------------------------------------------- load-loss series
+
+
+def load_series_figure(series: Sequence[Mapping[str, Any]]) -> str | None:
+    """Repeated load-loss readings: the loss at rated current drifting with the winding
+    temperature, and the same loss converted to the reference temperature (which should hold)."""
+    points = [p for p in series if fmt.is_number(p.get("loss_W"))]
+    if len(points) < 2:
+        return None
+    x = _numbers([p.get("reading", k + 1) for k, p in enumerate(points)])
+    with matplotlib.rc_context(_RC):
+        fig = new_figure(7.0, 3.2)
+        ax = fig.add_subplot()
+        raw = ax.plot(x, _numbers([p.get("loss_W") for p in points]), label="load loss at rated current", **_style(0))
+        ref = ax.plot(x, _numbers([p.get("loss_ref_W") for p in points]), label="at reference temperature",
+                      **_style(1))
+        ax.set_xlabel("load-loss reading")
+        ax.set_ylabel("load loss (W)")
+        ax.set_xticks(x)
+        hot = ax.twinx()
+        hot.grid(False)
+        hot.spines["right"].set_visible(True)
+        temperature = hot.plot(x, _numbers([p.get("winding_temperature_C") for p in points]),
+                               label="winding temperature", **_style(2))
+        hot.set_ylabel("winding temperature (°C)")
+        ax.legend(handles=raw + ref + temperature, loc="center right", fontsize=8)
+    return to_svg(fig, "fig-load-series")
+
+
 # --------------------------------------------------------------------------- ramp traces
 
 _TRACE_PANELS = (("u_V", "voltage_V", "voltage (V)"), ("i_A", "current_A", "current (A)"), ("p_W", "power_W", "power (W)"))

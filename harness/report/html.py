@@ -13,6 +13,7 @@ from markupsafe import Markup
 
 from harness.report import fmt, tables
 from harness.report.banner import banner
+from harness.report.certificate import certificate_context
 from harness.report.bundle import ReportBundle
 from harness.report.figures import circuit_figure, efficiency_figure, excitation_figure, trace_figure
 
@@ -71,6 +72,7 @@ def context(bundle: ReportBundle) -> dict[str, Any]:
         "readings": tables.reading_rows(bundle.readings), "events": _event_rows(bundle.events),
         "warnings": bundle.all_warnings(), "uncertainty": tables.uncertainty_rows(results.get("uncertainty")),
         "figures": _figures(bundle), "has_sweep": bool(bundle.sweep),
+        "cert": certificate_context(bundle, _standard_key(bundle.run, results), nameplate_rows(bundle.unit)),
     }
 
 
@@ -78,7 +80,7 @@ def _title(bundle: ReportBundle) -> str:
     unit = bundle.unit
     name = unit.get("description") or "transformer"
     serial = unit.get("serial")
-    return f"Test report: {name}" + (f", serial {serial}" if serial else "")
+    return f"Routine test report: {name}" + (f", serial {serial}" if serial else "")
 
 
 def _run_fields(run: dict[str, Any]) -> dict[str, str]:
@@ -89,8 +91,12 @@ def _run_fields(run: dict[str, Any]) -> dict[str, str]:
     return fields
 
 
+def _standard_key(run: dict[str, Any], results: dict[str, Any]) -> str:
+    return str(run.get("standard") or results.get("standard") or "").lower()
+
+
 def _standard(run: dict[str, Any], results: dict[str, Any]) -> str:
-    key = str(run.get("standard") or results.get("standard") or "").lower()
+    key = _standard_key(run, results)
     return STANDARDS.get(key, key.upper() or fmt.DASH)
 
 
@@ -122,7 +128,17 @@ def nameplate_rows(unit: dict[str, Any]) -> list[tuple[str, str]]:
     ]
     if unit.get("vector_group"):
         rows.insert(rows.index(("Phases", _text(unit.get("phases")))) + 1, ("Vector group", str(unit["vector_group"])))
-    return rows
+    return rows + _rating_plate_rows(unit)
+
+
+def _rating_plate_rows(unit: dict[str, Any]) -> list[tuple[str, str]]:
+    """The certificate's rating-plate fields, those the sequence gives."""
+    thermal = unit.get("thermal_class")
+    fields = (("Cooling", unit.get("cooling")), ("Insulation", unit.get("insulation")),
+              ("Thermal class", f"{thermal} °C (IEC 60085)" if thermal else None),
+              ("Year of manufacture", unit.get("year_of_manufacture")),
+              ("Standard and edition", unit.get("standard_edition")))
+    return [(label, str(value)) for label, value in fields if value not in (None, "")]
 
 
 def _winding(winding: Any) -> str:

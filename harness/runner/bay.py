@@ -6,13 +6,14 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from drivers import open_instrument
+from drivers.errors import InstrumentError
 from drivers.ac_source import AcSource
 from drivers.bay_control import BayControl
 from drivers.resistance_meter import ResistanceMeter
 from drivers.thermometer import Thermometer
 from drivers.power_analyser import PowerAnalyser
 from harness.config.station import Instrument, Station
-from harness.config.station_checks import ROLE_KINDS
+from harness.config.station_checks import ROLE_KINDS, serial_mismatches
 
 
 @dataclass
@@ -55,6 +56,9 @@ def open_bay(station: Station, rm: Any = None, phases: int = 1) -> Bay:
                                          **options)
             opened[role] = instrument
             identities.append(_identity(role, spec, instrument.identify()))
+        mismatches = serial_mismatches(station, identities)
+        if mismatches:
+            raise InstrumentError("; ".join(mismatches), "station", "*IDN?")
     except BaseException:
         for instrument in opened.values():
             try:

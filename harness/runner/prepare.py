@@ -3,18 +3,19 @@ only the simulated bay may do."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import datetime as dt
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from harness.common.errors import InputError, UsageError
+from harness.common.errors import InputError, InputErrors, UsageError
 from drivers.profile import load_profile
 from harness.common.yamlio import LoadedYaml, load_file, load_text, validate
 from harness.config.checks import check
 from harness.config.sequence import Sequence
 from harness.config.station import Station
 from harness.runner import steps as _steps  # noqa: F401 - a step model without an executor fails here, before check passes
-from harness.config.station_checks import check_station
+from harness.config.station_checks import calibration_errors, calibration_lines, check_station
 from harness.runner.sim_station import SIM_STATION_FILE, sim_station
 
 
@@ -29,6 +30,10 @@ class RunOptions:
     quiet: bool = False
     defer_stopped_report: bool = False
     """A run that stopped hands the prompt back at once and leaves its report to the caller."""
+    today: dt.date | None = None
+    """The test date calibrations are judged on (None: today, UTC)."""
+    pdf: bool = False
+    """Also print the report to PDF."""
 
 
 @dataclass
@@ -39,6 +44,8 @@ class Prepared:
     station_text: str
     station_file: str
     scenario: Any = None
+    calibration: list[str] = field(default_factory=list)
+    """Each instrument's calibration state on the test date and the serial *IDN? must give."""
 
 
 def prepare(options: RunOptions) -> Prepared:
@@ -62,13 +69,18 @@ def prepare(options: RunOptions) -> Prepared:
         st_loaded = load_file(options.station)
         station, station_text, station_file = validate(Station, st_loaded), st_loaded.text, str(options.station)
     check_station(station, st_loaded, load_profile)
+    today = dt.datetime.now(dt.timezone.utc).date() if options.today is None else options.today
+    expired = calibration_errors(station, st_loaded, today)
+    if expired:
+        raise InputErrors(expired)
     check(sequence, station, loaded)
     if options.yes and not station.simulated:
         raise InputError("--yes answers prompts only on the simulated bay; a real bay needs its operator",
                          station_file, 1, 1)
     if options.time_scale not in (None, 1.0) and not station.simulated:
         raise InputError("--time-scale is for the simulated bay only; a real bay runs in real time", station_file, 1, 1)
-    return Prepared(sequence, loaded.text, station, station_text, station_file, scenario)
+    return Prepared(sequence, loaded.text, station, station_text, station_file, scenario,
+                    calibration_lines(station, today))
 
 
 def _not_a_record(loaded: LoadedYaml) -> None:

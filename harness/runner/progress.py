@@ -58,6 +58,15 @@ class GuardedDisplay:
             self._fault = Trip(self.failure)
 
 
+# Said once, the first time the terminal shows U' (common practice: the mean-value voltmeter of the
+# no-load test, IEC 60076-1 11.5; recalled from memory).
+U_MEAN_NOTE = ("U' is the mean-value voltage scaled to rms (U' = 1.111 x rectified mean): U and U' apart "
+               "means a distorted voltage, and the no-load loss is corrected for it")
+LINE_WIDTH = 80
+STAGE_MARKS = 4
+STAGE_TEXT = LINE_WIDTH - 30  # the stage's name beside its bar and percentage  # without a live display, a long stage prints its progress at each quarter
+
+
 class Progress:
     def __init__(self, quiet: bool = False):
         self.console = Console(stderr=True, highlight=False)
@@ -66,6 +75,8 @@ class Progress:
         self._last = 0.0
         self._step = ""
         self._stage = ""
+        self._mark = 0
+        self._told_u_mean = False
 
     def __enter__(self) -> "Progress":
         if self.console.is_terminal and not self.quiet:
@@ -79,46 +90,63 @@ class Progress:
             self.live = None
 
     def step(self, index: int, kind: str, title: str) -> None:
-        self._step, self._stage = escape(f"step {index + 1}: {title}"), ""
+        self._step, self._stage, self._mark = escape(f"step {index + 1}: {title}"), "", 0
         self._print(f"[bold]{self._step}[/bold]")
 
     def stage(self, text: str, done: float, total: float) -> None:
         pct = 100 * done / total if total else 0
-        self._stage = escape(f"{text}  [{'#' * int(pct / 5):<20}] {pct:3.0f} %")
+        short = text if len(text) <= STAGE_TEXT else text[:STAGE_TEXT - 1] + "…"
+        self._stage = escape(f"{short}  [{'#' * int(pct / 5):<20}] {pct:3.0f} %")
+        mark = int(pct * STAGE_MARKS / 100)
+        if self.live is None and mark > self._mark:  # plain lines: each quarter once
+            self._mark = mark
+            self._print(escape(f"  {text}: {pct:.0f} % ({done:.0f} of {total:.0f} s)"))
 
     def event(self, kind: str, text: str) -> None:
         style = {"warning": "yellow", "trip": "bold red", "unsafe": "bold red on white"}.get(kind, "")
         line = escape(f"{kind}: {text}")
         self._print(f"  [{style}]{line}[/{style}]" if style else f"  {line}")
+        if "U'" in text:
+            self._explain_u_mean()
 
     def sample(self, sample: Sample, limits: EffectiveLimits) -> None:
         now = time.monotonic()
         if self.live is None or now - self._last < REFRESH_S:
             return
         self._last = now
+        self._explain_u_mean()
         self.live.update(self._table(sample, limits))
+
+    def _explain_u_mean(self) -> None:
+        if not self._told_u_mean:
+            self._told_u_mean = True
+            self._print(escape(f"  note: {U_MEAN_NOTE}"))
 
     def _print(self, text: str) -> None:
         if not self.quiet or "red" in text:
             self.console.print(text)
 
     def _table(self, s: Any, limits: Any) -> Table:
-        table = Table.grid(padding=(0, 2))
-        table.add_row(self._step, self._stage)
-        if s is not None:
-            u_top = max(max(ph.u_rms, ph.u_mean) for ph in s.phases)
-            i_top = max(abs(ph.i_rms) for ph in s.phases)
-            headroom = min((1 - u_top / limits.voltage, "U"), (1 - i_top / limits.current, "I"),
-                           (1 - abs(s.p) / limits.power, "P"))
-            table.add_row(_values(s), f"headroom {100 * headroom[0]:5.1f} % ({headroom[1]})   set {s.setpoint:8.4g} V")
+        table = Table.grid()
+        table.add_row(self._step)
+        if self._stage:
+            table.add_row(self._stage)
+        for line in live_lines(s, limits) if s is not None else ():
+            table.add_row(line)
         return table
 
 
-
-def _values(s: Any) -> str:
-    """One line: U, U', I, P; three phases side by side (line-to-line U, line I, total P)."""
+def live_lines(s: Any, limits: Any) -> list[str]:
+    """The live reading in lines of at most 80 columns: U, U', I, P (three phases: line-to-line
+    U, line currents, total P), then the headroom to the nearest limit and the setpoint."""
+    u_top = max(max(ph.u_rms, ph.u_mean) for ph in s.phases)
+    i_top = max(abs(ph.i_rms) for ph in s.phases)
+    headroom = min((1 - u_top / limits.voltage, "U"), (1 - i_top / limits.current, "I"),
+                   (1 - abs(s.p) / limits.power, "P"))
+    shown = max(100 * headroom[0], -999.9)  # past a limit the supervisor trips; the figure stays short
+    tail = f"headroom {shown:.1f} % ({headroom[1]})  set {s.setpoint:.4g} V"
     if len(s.phases) == 1:
-        return f"U {s.u_rms:9.4g} V   U' {s.u_mean:9.4g} V   I {s.i_rms:9.4g} A   P {s.p:9.4g} W"
-    u = " ".join(f"{ph.u_rms:.4g}" for ph in s.phases)
-    i = " ".join(f"{ph.i_rms:.4g}" for ph in s.phases)
-    return f"U {u} V   U' {s.u_mean:.4g} V   I {i} A   P {s.p:.4g} W"
+        return [f"U {s.u_rms:.4g} V  U' {s.u_mean:.4g} V  I {s.i_rms:.4g} A  P {s.p:.4g} W", tail]
+    u = "/".join(f"{ph.u_rms:.4g}" for ph in s.phases)
+    i = "/".join(f"{ph.i_rms:.4g}" for ph in s.phases)
+    return [f"U12/23/31 {u} V  U' {s.u_mean:.4g} V", f"I1/2/3 {i} A  P {s.p:.4g} W", tail]

@@ -69,7 +69,33 @@ def run_bundle(store: Any, run_id: str, row: dict[str, Any] | None = None,
         events=[_event(e) for e in events if e["kind"] not in ("step-start", "step-end")],
         warnings=list(results.get("warnings", [])) or [e["text"] for e in events if e["kind"] == "warning"],
         trip=_trip(row.get("trip"), steps, labels),
+        certificate=certificate_of(store, row, sequence, labels),
     )
+
+
+def certificate_of(store: Any, row: dict[str, Any], sequence: dict[str, Any], labels: dict[int, str]
+                   ) -> dict[str, Any]:
+    """The certificate parts of a stored run (see ``harness.runner.certificate``)."""
+    from harness.runner import certificate as cert
+    record = row.get("record") or {}
+    transformer = record.get("transformer") or _si_transformer(sequence)
+    standard = str(record.get("standard") or sequence.get("standard") or "iec")
+    simulated = row.get("simulated") if isinstance(row.get("simulated"), dict) else {}
+    approvals = store.approvals(row["run_id"])
+    approval = {**cert.approval_block(approvals["rows"], sequence.get("operator"), row.get("finished")),
+                "results_sha256": approvals["results_sha256"]}
+    return {"resistances": cert.resistance_rows(row["events"], transformer, standard),
+            "temperatures": cert.temperature_rows(row["events"], labels, record),
+            "calibration": cert.calibration_rows(_yaml(row.get("station_text")), row["instruments"], row.get("started")),
+            "approval": approval, "time_scale": simulated.get("time_scale")}
+
+
+def _si_transformer(sequence: dict[str, Any]) -> dict[str, Any]:
+    from harness.calc.record import Transformer
+    try:
+        return Transformer.model_validate(sequence.get("transformer", {})).model_dump()
+    except ValueError:
+        return {}
 
 
 def _trip(trip: dict[str, Any] | None, steps: list[dict[str, Any]], labels: dict[int, str]) -> dict[str, Any] | None:
@@ -108,6 +134,8 @@ def unit_of(sequence: dict[str, Any]) -> dict[str, Any]:
         return dict(sequence.get("unit") or {})
     unit = {"rated_power_VA": t.rated_power, "phases": t.phases, "frequency_Hz": t.frequency,
             "winding_material": t.winding_material, "vector_group": t.vector_group,
+            "cooling": t.cooling, "insulation": t.insulation, "thermal_class": t.thermal_class,
+            "year_of_manufacture": t.year_of_manufacture, "standard_edition": t.standard_edition,
             **{w: {"rated_voltage_V": getattr(t, w).rated_voltage, "connection": getattr(t, w).connection,
                    "neutral": getattr(t, w).neutral} for w in ("hv", "lv")}}
     return {**unit, **(sequence.get("unit") or {})}
@@ -192,7 +220,7 @@ def write_evaluation_report(path: Path, record: Any, results: Any, html: Path) -
     return html
 
 
-def write_in_background(store: Any, run_id: str) -> tuple[Path, Any]:
+def write_in_background(store: Any, run_id: str, pdf: bool = False) -> tuple[Path, Any]:
     """Start ``harness report RUN_ID`` as a process of its own, detached from the terminal; where
     its report will be, and the process.
 
@@ -208,7 +236,8 @@ def write_in_background(store: Any, run_id: str) -> tuple[Path, Any]:
 
     folder = store.run_folder(run_id)
     with open(folder / "report.log", "w", encoding="utf-8") as log:
-        process = subprocess.Popen([sys.executable, "-m", "harness.cli", "report", run_id], stdin=subprocess.DEVNULL,
+        command = [sys.executable, "-m", "harness.cli", "report", run_id, *(["--pdf"] if pdf else [])]
+        process = subprocess.Popen(command, stdin=subprocess.DEVNULL,
                                    stdout=log, stderr=log, start_new_session=True,
                                    env={**os.environ, "HARNESS_DATA": str(store.folder)})
     return folder / "report.html", process

@@ -184,8 +184,11 @@ def _start_at_zero(run: Run) -> None:
         raise Trip("the source did not confirm output off at zero volts before the run", step="start")
     _arm_source_protection(run)
     run.update_interval = run.measure_averaging = run.bay.analyser.averaging()
+    scale = run.clock.time_scale
+    simulated = (f"; simulated bay at {scale:g} x real time: every time shown is in the bay's seconds"
+                 if run.station.simulated else "")
     run.event("ready", f"instruments identified; source output off at zero volts; analyser updates every "
-                       f"{run.update_interval:g} s")
+                       f"{run.update_interval:g} s{simulated}")
 
 
 def _arm_source_protection(run: Run) -> None:

@@ -19,17 +19,19 @@ name: Simulated bay
 lab: Harness simulated test bay (no hardware)
 simulated: true
 instruments:
-  source: {{resource: "{source}", profile: {source_profile}, timeout: 2 s}}
-  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 2 s}}
+  source: {{resource: "{source}", profile: {source_profile}, timeout: 2 s, serial: "{serial}-1"}}
+  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 2 s, serial: "{serial}-2"}}
   resistance_meter:
     resource: "{resistance_meter}"
     profile: generic-resistance-meter
     timeout: 2 s
+    serial: "{serial}-3"
     channels: {resistance_channels}
   thermometer:
     resource: "{thermometer}"
     profile: generic-thermometer
     timeout: 2 s
+    serial: "{serial}-4"
     channels: {{ambient: 1, oil: 2, winding: 3}}
   bay_control: {{resource: "{bay_control}", profile: generic-bay-control, timeout: 2 s}}
 measurement: {{vt_ratio: {vt:g}, ct_ratio: {ct:g}}}
@@ -87,6 +89,7 @@ def scenario_fields(scenario: Any) -> dict[str, Any]:
         "i_range": acc.current.range, "p_reading": acc.power.reading, "p_range": acc.power.range,
         "voltage_ranges": ", ".join(f"{r:g} V" for r in an.voltage_ranges),
         "current_ranges": ", ".join(f"{r:g} A" for r in an.current_ranges),
+        "serial": f"SIM{scenario.seed:04d}",  # what the simulated instruments answer to *IDN?
         "rm_accuracy": scenario.resistance_meter.accuracy, "th_accuracy": scenario.thermometer.accuracy,
     }
 

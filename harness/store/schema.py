@@ -13,9 +13,28 @@ from pathlib import Path
 
 from harness.store.errors import StoreError
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
+"""1: runs, steps, samples, events, instruments, readings. 2: adds ``approvals`` (append-only
+sign-off rows of a finished run); a version-1 store gains the table when it is opened."""
 APPLICATION = "transformer-test-harness"
 BUSY_TIMEOUT_S = 10.0
+
+# Schema version 2. Append-only: who checked or approved a finished run, when, and the SHA-256 of
+# the results text they approved; the triggers refuse any change or removal of a row.
+APPROVALS_TABLE = """CREATE TABLE IF NOT EXISTS approvals (
+        id INTEGER PRIMARY KEY,
+        run_id TEXT NOT NULL REFERENCES runs(run_id),
+        approved TEXT NOT NULL,
+        name TEXT NOT NULL,
+        role TEXT NOT NULL,
+        note TEXT,
+        results_sha256 TEXT NOT NULL)"""
+APPROVALS_APPEND_ONLY = (
+    "CREATE TRIGGER IF NOT EXISTS approvals_no_update BEFORE UPDATE ON approvals "
+    "BEGIN SELECT RAISE(ABORT, 'approvals are append-only'); END",
+    "CREATE TRIGGER IF NOT EXISTS approvals_no_delete BEFORE DELETE ON approvals "
+    "BEGIN SELECT RAISE(ABORT, 'approvals are append-only'); END",
+)
 
 TABLES = (
     "CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
@@ -102,6 +121,7 @@ TABLES = (
         freq_mean REAL, freq_std REAL,
         stable INTEGER NOT NULL)""",
     "CREATE INDEX IF NOT EXISTS readings_by_run ON readings (run_id, id)",
+    APPROVALS_TABLE,
 )
 
 
@@ -142,6 +162,8 @@ def _ensure_schema(conn: sqlite3.Connection, path: Path) -> None:
         elif version > SCHEMA_VERSION:
             raise StoreError(f"{path}: the store has schema version {version}, written by a newer "
                              f"harness; this one reads up to version {SCHEMA_VERSION}; upgrade the harness")
+        elif version == 1:
+            _upgrade_from_1(conn)
         elif version < SCHEMA_VERSION:
             raise StoreError(f"{path}: schema version {version} is older than any this harness knows")
         conn.execute("COMMIT")
@@ -163,8 +185,15 @@ def _stored_version(conn: sqlite3.Connection, path: Path) -> int | None:
         raise StoreError(f"{path}: the store's meta table has no valid schema_version") from exc
 
 
+def _upgrade_from_1(conn: sqlite3.Connection) -> None:
+    """Version 1 to 2: the approvals table; nothing else changes."""
+    for statement in (APPROVALS_TABLE, *APPROVALS_APPEND_ONLY):
+        conn.execute(statement)
+    conn.execute("UPDATE meta SET value = ? WHERE key = 'schema_version'", (str(SCHEMA_VERSION),))
+
+
 def _create(conn: sqlite3.Connection) -> None:
-    for statement in TABLES:
+    for statement in (*TABLES, *APPROVALS_APPEND_ONLY):
         conn.execute(statement)
     conn.executemany("INSERT INTO meta (key, value) VALUES (?, ?)",
                      [("schema_version", str(SCHEMA_VERSION)), ("application", APPLICATION)])

@@ -242,6 +242,33 @@ class Store:
         self._counters.pop(run_id, None)
         self._begun.discard(run_id)
 
+    def approve(self, run_id: str, *, name: str, role: str, note: str | None = None) -> dict[str, Any]:
+        """Add one approval row to a finished run (append-only): who, in what role, when, and the
+        SHA-256 of the run's results as stored now; the row as stored."""
+        row = {"run_id": run_id, "approved": rows.utc_now(), "name": rows.label(name, "approver's name").strip(),
+               "role": rows.label(role, "approver's role").strip(), "note": rows.text(note, "note", optional=True)}
+        with self._transaction() as conn:
+            found = conn.execute("SELECT status, results FROM runs WHERE run_id = ?", (run_id,)).fetchone()
+            if found is None:
+                raise UnknownRunError(f"no run '{run_id}' in {self.path}; `harness runs` lists the stored runs")
+            if found[0] == "running":
+                raise StoreError(f"run {run_id} has not finished; only a finished run can be approved")
+            row["results_sha256"] = rows.sha256(found[1] or "")
+            conn.execute("INSERT INTO approvals (run_id, approved, name, role, note, results_sha256) "
+                         "VALUES (:run_id, :approved, :name, :role, :note, :results_sha256)", row)
+        return row
+
+    def approvals(self, run_id: str) -> dict[str, Any]:
+        """``results_sha256``: the SHA-256 of the run's results as stored now (None without
+        results); ``rows``: its approvals, oldest first, each with ``results_match``, whether that
+        hash is still the one that was approved."""
+        now = self._query("SELECT results FROM runs WHERE run_id = ?", (run_id,))
+        current = rows.sha256(now[0]["results"] or "") if now else None
+        found = self._query("SELECT approved, name, role, note, results_sha256 FROM approvals "
+                            "WHERE run_id = ? ORDER BY id", (run_id,))
+        return {"results_sha256": current if now and now[0]["results"] else None,
+                "rows": [{**r, "results_match": r["results_sha256"] == current} for r in found]}
+
     # -- reading --------------------------------------------------------------------------------
 
     def runs(self) -> list[dict[str, Any]]:

@@ -49,10 +49,10 @@ def errors_of(tmp_path: Path, text: str) -> list[InputError]:
 
 # (old, new, the written value the error points at, words of the message)
 CASES = {
-    "blank profile": (SOURCE, "profile: '', timeout: 0.5 s", "''", "at least 1 character"),
-    "profile '50 kV'": (SOURCE, "profile: 50 kV, timeout: 0.5 s", "50 kV", "no profile '50 kV' for kind 'ac_source'"),
-    "misspelt profile": (SOURCE, "profile: generic-ac-sorce, timeout: 0.5 s", "generic-ac-sorce", "no profile"),
-    "profile of another kind": (SOURCE, "profile: generic-thermometer, timeout: 0.5 s", "generic-thermometer",
+    "blank profile": (SOURCE, "profile: '', timeout: 2 s", "''", "at least 1 character"),
+    "profile '50 kV'": (SOURCE, "profile: 50 kV, timeout: 2 s", "50 kV", "no profile '50 kV' for kind 'ac_source'"),
+    "misspelt profile": (SOURCE, "profile: generic-ac-sorce, timeout: 2 s", "generic-ac-sorce", "no profile"),
+    "profile of another kind": (SOURCE, "profile: generic-thermometer, timeout: 2 s", "generic-thermometer",
                                 "for kind 'thermometer', not 'ac_source'"),
     "resource '-10 %'": ('"TCPIP0::127.0.0.1::5025::SOCKET"', '"-10 %"', '"-10 %"', "not a VISA resource string"),
     "empty resource": ('"TCPIP0::127.0.0.1::5025::SOCKET"', '""', '""', "at least 1 character"),
@@ -100,7 +100,7 @@ def test_the_extra_low_voltage_bound_is_50_volts_ac() -> None:
 
 
 def test_several_problems_are_reported_together(tmp_path: Path) -> None:
-    text = (BASE.replace(SOURCE, "profile: generic-ac-sorce, timeout: 0.5 s")
+    text = (BASE.replace(SOURCE, "profile: generic-ac-sorce, timeout: 2 s")
             .replace('"TCPIP0::127.0.0.1::5026::SOCKET"', '"-10 %"').replace(SAFE, SAFE.replace("0.05 A", "10 A")))
     assert len(errors_of(tmp_path, text)) == 3
 
@@ -131,7 +131,7 @@ def test_resource_strings_pyvisa_parses_are_accepted(resource: str) -> None:
 
 def test_a_misspelt_profile_fails_check_with_one_line_at_the_station(tmp_path: Path) -> None:
     station = tmp_path / "station.yaml"
-    text = BASE.replace(SOURCE, "profile: generic-ac-sorce, timeout: 0.5 s")
+    text = BASE.replace(SOURCE, "profile: generic-ac-sorce, timeout: 2 s")
     station.write_text(text, encoding="utf-8")
     env = {**os.environ, "HARNESS_DATA": str(tmp_path)}
     proc = subprocess.run([sys.executable, "-m", "harness.cli", "check", str(ROUTINE), "--station", str(station)],

@@ -12,7 +12,7 @@ from tests.runner.conftest import ROUTINE, run_json
 CASES = [
     # fault, exit code, status, words in the trip, the step it trips in
     ("shorted-turn", 3, "tripped", "current limit", "to rated voltage"),
-    ("missing-link", 3, "tripped", "voltage limit", "to rated current"),
+    ("missing-link", 3, "tripped", "short-circuit link fitted", "to rated current"),
     ("analyser-silent", 3, "tripped", "no reply", None),
     ("overrange", 3, "tripped", "over range", None),
     ("garbage-reply", 3, "tripped", "unreadable", None),

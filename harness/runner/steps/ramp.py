@@ -23,7 +23,8 @@ from harness.config.reach import (FIRST_SETPOINT_SHARE, FIXED_INCREMENT_S, LOWES
                                   band_top, fixed_increment_volts)
 from harness.runner.context import Run, Sample
 from harness.runner.steps import register
-from harness.safety import Trip
+from harness.runner.steps.diagnosis import excess_magnetising, open_circuit
+from harness.safety import LimitTrip, Trip
 
 RAMP_FLOOR_REAL_S = 10.0
 RAMP_AVERAGING_S = 0.05     # analyser update interval while ramping (bay seconds)
@@ -127,6 +128,8 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
         furthest = y if math.isnan(furthest) else (max(furthest, y) if first <= target else min(furthest, y))
         if quantity == "voltage":
             _stop_before_current_limit(run, previous, s, target, target * (1 + band))
+        elif run.wiring is not None and run.wiring.other == "short" and (cause := open_circuit(run, s)) is not None:
+            raise Trip(cause, step=run.step_title, time=run.clock.now())
         previous = s
         if not applied or s.u_source != applied[-1][1]:
             applied.append((s.t, s.u_source))  # a repeated value is the same analyser update, not a settled source
@@ -148,10 +151,24 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
             if abs(wanted - run.setpoint) > NOISE_SHARE * band * wanted:  # below that, reading noise
                 if abs(wanted - run.setpoint) > band / 2 * wanted:
                     applied.clear()  # a real move: the source must settle again
-                run.send_setpoint(wanted)
+                _send_explained(run, wanted, s, quantity)
                 moved_at = s.t
         if run.clock.now() > deadline:
             raise Trip(f"ramp did not reach {target:.4g} within tolerance", quantity, y, target, run.step_title, run.clock.now())
+
+
+def _send_explained(run: Run, wanted: float, s: Sample, quantity: str) -> None:
+    """Send the ramp's next setpoint; a setpoint refused in a load-loss ramp is explained by an open
+    short-circuit circuit when the last reading says so (the refusal stands either way)."""
+    try:
+        run.send_setpoint(wanted)
+    except LimitTrip as refused:
+        shorted = run.wiring is not None and run.wiring.other == "short"
+        cause = open_circuit(run, s, judge_from=0.0) if quantity == "current" and shorted else None
+        if cause is None:
+            raise
+        raise Trip(f"{cause} (the next setpoint, {wanted:.4g} V, was refused: {refused.sentence()})",
+                   step=run.step_title, time=run.clock.now()) from refused
 
 
 def _gain(points: deque[tuple[float, float]]) -> float:
@@ -182,10 +199,11 @@ def _stop_before_current_limit(run: Run, previous: Sample | None, s: Sample, tar
     if ahead >= limit:
         phase = f"L{[ph.i_rms for ph in s.phases].index(i_now) + 1}" if len(s.phases) == 3 else None
         where = f" on phase {phase}" if phase else ""
+        likely = excess_magnetising(run, s, i_now)
         raise Trip(f"no-load ramp stopped at {s.u_mean:.4g} V before {target:.4g} V: the magnetising current{where} "
                    f"{i_now:.4g} A, rising as the {exponent:.1f}th power of the voltage, would reach the step's "
-                   f"current limit within {GUARD_STEPS} more readings", "current", ahead, limit, run.step_title,
-                   run.clock.now(), phase)
+                   f"current limit within {GUARD_STEPS} more readings" + (f"; {likely}" if likely else ""),
+                   "current", ahead, limit, run.step_title, run.clock.now(), phase)
 
 
 def highest_current(s: Sample) -> float:

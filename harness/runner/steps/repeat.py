@@ -11,5 +11,6 @@ from harness.runner.steps import register
 def execute(step: Repeat, run: Run) -> None:
     from harness.runner.sequencer import run_steps
     for n in range(step.times):
-        run.event("repeat", f"{step.title()}: pass {n + 1} of {step.times}")
+        # the event's kind already says "repeat": an unnamed block does not say it twice
+        run.event("repeat", f"{step.name}: pass {n + 1} of {step.times}" if step.name else f"pass {n + 1} of {step.times}")
         run_steps(step.steps, run)

@@ -159,7 +159,7 @@ def serial_mismatches(station: Station, identities: list[dict[str, Any]]) -> lis
     given = dict(_instruments(station))
     found = []
     for identity in identities:
-        spec = given.get(identity.get("role"))
+        spec = given.get(str(identity.get("role")))
         if spec is not None and spec.serial and str(identity.get("serial") or "").strip() != spec.serial.strip():
             found.append(f"{identity['role'].replace('_', ' ')}: *IDN? gives serial '{identity.get('serial')}', "
                          f"the station names '{spec.serial}': another instrument is connected than the "

@@ -34,8 +34,8 @@ def resistance_rows(events: list[dict[str, Any]], transformer: dict[str, Any], s
         labels = PAIRS if len(values) == 3 else ("",)
         temperature = data.get("temperature")
         for pair, ohm in zip(labels, values):
-            at_ref = (resistance_at(ohm, temperature, reference, constant)
-                      if None not in (ohm, temperature, reference, constant) else None)
+            known = ohm is not None and temperature is not None and reference is not None and constant is not None
+            at_ref = resistance_at(ohm, temperature, reference, constant) if known else None  # type: ignore[arg-type]
             rows.append({"winding": str(data.get("winding", "")).upper(), "terminals": pair, "ohm": ohm,
                          "temperature_C": temperature, "ohm_ref": at_ref, "reference_C": reference,
                          "constant": constant, "material": material})
@@ -44,7 +44,7 @@ def resistance_rows(events: list[dict[str, Any]], transformer: dict[str, Any], s
 
 def _reference(standard: str, given: Any) -> float | None:
     try:
-        return reference_temperature(standard, float(given) if given is not None else None)  # type: ignore[arg-type]
+        return reference_temperature(standard, float(given) if given is not None else None)
     except (TypeError, ValueError, KeyError):
         return None
 
@@ -56,12 +56,12 @@ def temperature_rows(events: list[dict[str, Any]], labels: dict[int, str], recor
     winding temperature at each resistance measurement, and the mean winding temperature the
     load-loss evaluation used (the record's)."""
     rows: list[dict[str, Any]] = []
-    step = None
+    step: str | None = None
     for event in events:
-        data = event.get("data") if isinstance(event.get("data"), dict) else {}
+        data: dict[str, Any] = event["data"] if isinstance(event.get("data"), dict) else {}
         kind = event.get("kind")
         if kind == "step-start":
-            step = labels.get(data.get("step")) if isinstance(data.get("step"), int) else step
+            step = labels.get(data["step"]) if isinstance(data.get("step"), int) else step
         elif kind == "temperature":
             rows.append({"when": step or "thermometer reading", "ambient": data.get("ambient"),
                          "oil": data.get("oil"), "winding": data.get("winding")})
@@ -71,7 +71,7 @@ def temperature_rows(events: list[dict[str, Any]], labels: dict[int, str], recor
         elif kind == "resistance":
             rows.append({"when": f"{step or 'resistance'} ({str(data.get('winding', '')).upper()})",
                          "ambient": None, "oil": None, "winding": data.get("temperature")})
-    load = record.get("load") if isinstance(record.get("load"), dict) else {}
+    load: dict[str, Any] = record["load"] if isinstance(record.get("load"), dict) else {}
     if load.get("temperature") is not None:
         rows.append({"when": "load-loss test: mean winding temperature, as evaluated", "ambient": None,
                      "oil": None, "winding": load["temperature"]})

@@ -80,7 +80,7 @@ def certificate_of(store: Any, row: dict[str, Any], sequence: dict[str, Any], la
     record = row.get("record") or {}
     transformer = record.get("transformer") or _si_transformer(sequence)
     standard = str(record.get("standard") or sequence.get("standard") or "iec")
-    simulated = row.get("simulated") if isinstance(row.get("simulated"), dict) else {}
+    simulated: dict[str, Any] = row["simulated"] if isinstance(row.get("simulated"), dict) else {}
     approvals = store.approvals(row["run_id"])
     approval = {**cert.approval_block(approvals["rows"], sequence.get("operator"), row.get("finished")),
                 "results_sha256": approvals["results_sha256"]}

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from harness.common.errors import InputError, UsageError
+from harness.common.errors import InputError
 from drivers.profile import load_profile
 from harness.common.yamlio import LoadedYaml, load_file, load_text, validate
 from harness.config.checks import check
@@ -22,13 +22,17 @@ from harness.runner.sim_station import SIM_STATION_FILE, sim_station
 class RunOptions:
     sequence: Path
     station: Path | None = None
-    scenario: str = "default"
+    scenario: str | None = None
+    """The simulated unit (without a station): a scenario's name or file, or 'nameplate'; None:
+    the sequence's own ``rehearse.scenario``, else the built-in default."""
     faults: tuple[str, ...] = ()
     time_scale: float | None = None
     yes: bool = False
     quiet: bool = False
     defer_stopped_report: bool = False
     """A run that stopped hands the prompt back at once and leaves its report to the caller."""
+    allow_mismatch: bool = False
+    """Run on a simulated unit whose nameplate differs from the sequence's, on purpose."""
 
 
 @dataclass
@@ -39,22 +43,23 @@ class Prepared:
     station_text: str
     station_file: str
     scenario: Any = None
+    scenario_name: str | None = None
+    scenario_text: str | None = None
+    """The scenario file built from the nameplate (``--sim nameplate``); None for a named one."""
 
 
 def prepare(options: RunOptions) -> Prepared:
     """Load and cross-check sequence and station; nothing is touched on the bay."""
-    scenario = None
+    scenario = scenario_name = scenario_text = None
     loaded = load_file(options.sequence)
     _not_a_record(loaded)
     sequence = validate(Sequence, loaded)
     if options.station is None:
-        from harness.sim.scenario import load_scenario
-        try:
-            scenario = load_scenario(options.scenario)
-        except InputError as exc:
-            if exc.line or Path(options.scenario).suffix in (".yaml", ".yml"):
-                raise  # a scenario file's own error, at its place in the file
-            raise UsageError(f"--sim: {exc.message}") from exc
+        from harness.runner import rehearsal
+        scenario_name = rehearsal.scenario_choice(sequence, options.sequence, options.scenario)
+        scenario, scenario_text = rehearsal.load_for(sequence, loaded, scenario_name)
+        if not options.allow_mismatch:
+            rehearsal.refuse_mismatch(sequence, loaded, scenario, scenario_name)
         station, station_text = sim_station(scenario=scenario)
         station_file = SIM_STATION_FILE
         st_loaded = load_text(station_text, station_file)
@@ -68,7 +73,8 @@ def prepare(options: RunOptions) -> Prepared:
                          station_file, 1, 1)
     if options.time_scale not in (None, 1.0) and not station.simulated:
         raise InputError("--time-scale is for the simulated bay only; a real bay runs in real time", station_file, 1, 1)
-    return Prepared(sequence, loaded.text, station, station_text, station_file, scenario)
+    return Prepared(sequence, loaded.text, station, station_text, station_file, scenario, scenario_name,
+                    scenario_text)
 
 
 def _not_a_record(loaded: LoadedYaml) -> None:

@@ -82,7 +82,7 @@ def execute(options: RunOptions, store: Any, signals: StopSignals | None = None)
         run_id = store.begin_run(
             unit=prepared.sequence.unit.serial, lab=station.lab, station_name=station.name,
             sequence_text=prepared.sequence_text, station_text=station_text, software_version=__version__,
-            simulated={"scenario": options.scenario, "faults": list(options.faults), "time_scale": scale} if station.simulated else None)
+            simulated={"scenario": prepared.scenario_name, "faults": list(options.faults), "time_scale": scale} if station.simulated else None)
         progress = GuardedDisplay(stack.enter_context(Progress(quiet=options.quiet)))
         recorder = Recorder(store, run_id)
         try:

@@ -179,8 +179,8 @@ def _check_faults(options: Any) -> None:
 
 def cmd_check(args: argparse.Namespace) -> int:
     from harness.runner.prepare import RunOptions, prepare
-    if args.sequence.is_dir():
-        return _check_folder(args)
+    if args.sequence.is_dir() and args.sequence.suffix not in (".yaml", ".yml"):
+        return _check_folder(args)  # a folder named like a sequence file is refused as one
     prepared = prepare(RunOptions(args.sequence, args.station, args.sim, allow_mismatch=args.allow_mismatch))
     steps = len(prepared.sequence.steps)
     print(f"{args.sequence}: valid against {_bay_name(prepared)} ({steps} steps); nothing was energised")

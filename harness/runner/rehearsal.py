@@ -45,8 +45,10 @@ def nameplate_scenario(sequence: Sequence, loaded: LoadedYaml) -> np_unit.Built:
     the sequence's guarantees."""
     try:
         return np_unit.build(nameplate_of(sequence), bay_needs(sequence))
-    except ValueError as exc:
-        place = ("guarantees",) if isinstance(loaded.data, dict) and "guarantees" in loaded.data else ("transformer",)
+    except np_unit.Unbuildable as exc:
+        given = loaded.data.get("guarantees") if isinstance(loaded.data, dict) else None
+        place = (("guarantees", exc.field) if isinstance(given, dict) and exc.field in given
+                 else ("guarantees",) if given else ("transformer",))
         raise loaded.error(place, f"no simulated unit can be built from this nameplate: {exc}") from exc
 
 

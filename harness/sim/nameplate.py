@@ -163,8 +163,16 @@ def _guarantees(n: Nameplate) -> tuple[float, float, float, float, tuple[str, ..
     return p0, pk, z, i0, tuple(assumed)
 
 
-def _refuse(message: str) -> None:
-    raise ValueError(message)
+class Unbuildable(ValueError):
+    """Guarantees (or windings) no unit can have; ``field`` names the guarantee at fault."""
+
+    def __init__(self, message: str, field: str | None = None):
+        super().__init__(message)
+        self.field = field
+
+
+def _refuse(message: str, field: str | None = None) -> None:
+    raise Unbuildable(message, field)
 
 
 def _vector_group(n: Nameplate) -> tuple[dict[str, Any], str | None]:
@@ -190,7 +198,7 @@ def _windings(n: Nameplate, pk: float, z: float, theta_ref: float, c: float) -> 
     r_pct = 100.0 * pk / s
     if z <= r_pct:
         _refuse(f"the guaranteed impedance {z:g} % is not above the resistive part {r_pct:.3g} % that the "
-                f"load loss gives; no unit has both")
+                f"load loss gives; no unit has both", "impedance")
     x_pct = math.sqrt(z * z - r_pct * r_pct)
     i2r = (1.0 - ADDITIONAL_LOSS_SHARE) * pk
     to_20 = (c + RESISTANCE_TEMPERATURE_C) / (c + theta_ref)
@@ -269,7 +277,7 @@ def scenario_document(n: Nameplate, needs: BayNeeds = BayNeeds()) -> tuple[dict[
     ic_pct = 100.0 * p0 / s
     if i0 <= ic_pct:
         _refuse(f"the guaranteed no-load current {i0:g} % is not above its loss component {ic_pct:.3g} % "
-                f"(no-load loss over rated power); no core has both")
+                f"(no-load loss over rated power); no core has both", "no_load_current")
     transformer: dict[str, Any] = {"name": n.name, "phases": n.phases, "rated_power": s, "frequency": n.frequency,
                                    "winding_material": material}
     if n.phases == 3:

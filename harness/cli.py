@@ -49,9 +49,9 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("sequence", type=Path)
     run.add_argument("--station", type=Path)
     run.add_argument("--sim", metavar="SCENARIO", help=(
-        "without --station: the simulated unit - 'nameplate' (built from the sequence's nameplate and "
-        "guarantees), a built-in scenario's name or a scenario file; default: the sequence's "
-        "rehearse.scenario, else 'default'"))
+        "the simulated unit - 'nameplate' (built from the sequence's nameplate and guarantees), a built-in "
+        "scenario's name or a scenario file; without --station default: the sequence's rehearse.scenario, else "
+        "'default'; with --station: rehearse that station served by the simulated bay"))
     run.add_argument("--allow-mismatch", action="store_true",
                      help="run on a simulated unit whose nameplate differs from the sequence's")
     run.add_argument("--fault", action="append", default=[], metavar="NAME", help="inject a fault (simulated bay)")
@@ -173,8 +173,9 @@ def _check_faults(options: Any) -> None:
     for name in options.faults:
         if name not in FAULTS:
             raise UsageError(f"--fault: unknown fault '{name}'; known: {', '.join(sorted(FAULTS))}")
-    if options.faults and options.station is not None:
-        raise UsageError("--fault injects into the built-in simulated bay; drop --station")
+    if options.faults and options.station is not None and options.scenario is None:
+        raise UsageError("--fault injects into the simulated bay; drop --station, or give --sim to rehearse the "
+                         "station on the simulated bay")
 
 
 def cmd_check(args: argparse.Namespace) -> int:

@@ -4,8 +4,9 @@ only the simulated bay may do."""
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import partial
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from harness.common.errors import InputError
 from drivers.profile import load_profile
@@ -15,7 +16,7 @@ from harness.config.sequence import Sequence
 from harness.config.station import Station
 from harness.runner import steps as _steps  # noqa: F401 - a step model without an executor fails here, before check passes
 from harness.config.station_checks import check_station
-from harness.runner.sim_station import SIM_STATION_FILE, sim_station
+from harness.runner.sim_station import PLACEHOLDER, SIM_STATION_FILE, sim_station
 
 
 @dataclass
@@ -46,11 +47,13 @@ class Prepared:
     scenario_name: str | None = None
     scenario_text: str | None = None
     """The scenario file built from the nameplate (``--sim nameplate``); None for a named one."""
+    serve: Callable[[dict[str, str]], tuple[Station, str]] | None = None
+    """The station of the simulated bay once it is served on these resources; None on a real bay."""
 
 
 def prepare(options: RunOptions) -> Prepared:
     """Load and cross-check sequence and station; nothing is touched on the bay."""
-    scenario = scenario_name = scenario_text = None
+    scenario = scenario_name = scenario_text = serve = None
     loaded = load_file(options.sequence)
     _not_a_record(loaded)
     sequence = validate(Sequence, loaded)
@@ -63,9 +66,24 @@ def prepare(options: RunOptions) -> Prepared:
         station, station_text = sim_station(scenario=scenario)
         station_file = SIM_STATION_FILE
         st_loaded = load_text(station_text, station_file)
+        serve = partial(sim_station, scenario=scenario)
     else:
         st_loaded = load_file(options.station)
         station, station_text, station_file = validate(Station, st_loaded), st_loaded.text, str(options.station)
+        if options.scenario is not None:
+            # The lab's station served by the simulated bay: the lab's file is checked as it is first.
+            from harness.runner import rehearsal, station_rehearsal
+            check_station(station, st_loaded, load_profile)
+            scenario_name = rehearsal.scenario_choice(sequence, options.sequence, options.scenario)
+            scenario, scenario_text = rehearsal.load_for(sequence, loaded, scenario_name)
+            if not options.allow_mismatch:
+                rehearsal.refuse_mismatch(sequence, loaded, scenario, scenario_name)
+            scenario = station_rehearsal.fit_to_station(scenario, station)
+            phases, lab_file = sequence.transformer.phases, st_loaded
+            serve = partial(station_rehearsal.served_station, lab_file, phases=phases)
+            station, station_text = serve(PLACEHOLDER)
+            station_file = f"{options.station} (served by the simulated bay)"
+            st_loaded = load_text(station_text, station_rehearsal.SERVED_FILE)
     check_station(station, st_loaded, load_profile)
     check(sequence, station, loaded)
     if options.yes and not station.simulated:
@@ -74,7 +92,7 @@ def prepare(options: RunOptions) -> Prepared:
     if options.time_scale not in (None, 1.0) and not station.simulated:
         raise InputError("--time-scale is for the simulated bay only; a real bay runs in real time", station_file, 1, 1)
     return Prepared(sequence, loaded.text, station, station_text, station_file, scenario, scenario_name,
-                    scenario_text)
+                    scenario_text, serve)
 
 
 def _not_a_record(loaded: LoadedYaml) -> None:

@@ -237,7 +237,7 @@ def _bay(n: Nameplate, z: float, i0: float, needs: BayNeeds) -> dict[str, Any]:
     if direct_v:
         analyser["voltage_ranges"] = [15.0, 30.0, 60.0, 150.0, 300.0, 600.0, 1000.0]
     else:
-        analyser["voltage_ranges"] = [15.0, 30.0, 60.0, 150.0, 300.0, 600.0]
+        analyser["voltage_ranges"] = [15.0, 30.0, 60.0, 150.0]       # the VT gives at most 100 V
         analyser["vt_ratio"] = step_up(v_line) / VT_SECONDARY
     if i_src <= DIRECT_MAX_CURRENT:
         analyser["current_ranges"] = [0.5, 1.0, 2.0, 5.0, 10.0, 20.0, 50.0]

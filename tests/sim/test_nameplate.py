@@ -148,3 +148,15 @@ def test_missing_guarantees_take_typical_values_and_say_so() -> None:
 
 def test_steps() -> None:
     assert [step_up(v) for v in (1.0, 1.01, 115.0, 506.0, 7590.0, 9.5)] == [1.0, 1.2, 120.0, 600.0, 8000.0, 10.0]
+
+
+def test_the_contributor_guide_example_is_the_10_kva_unit() -> None:
+    """DEVELOPERS.md's commented scenario is valid and its truth is the 10 kVA unit's guarantees."""
+    from harness.common.yamlio import load_text, validate
+    from harness.sim.scenario import Scenario
+    guide = (Path(__file__).resolve().parents[2] / "DEVELOPERS.md").read_text(encoding="utf-8")
+    block = guide.split("The format, commented")[1].split("```yaml\n", 1)[1].split("```", 1)[0]
+    t = truth(validate(Scenario, load_text(block, "DEVELOPERS.md")))
+    assert t["no_load"]["loss_W"] == pytest.approx(60.0, rel=0.002)
+    assert t["load"]["loss_ref_W"] == pytest.approx(250.0, rel=0.002)
+    assert t["load"]["impedance_ref_pct"] == pytest.approx(4.0, rel=0.002)

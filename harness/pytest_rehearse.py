@@ -26,6 +26,10 @@ EXIT_MEANING = {1: "completed outside its guarantees' tolerances", 2: "invalid (
                 3: "tripped (safe state confirmed)", 4: "aborted (safe state confirmed)",
                 5: "ENDED UNSAFE: the safe state was not confirmed"}
 DEFAULT_SIM = "nameplate"
+# The run's own default speed-up. Faster works on an idle host, but on a loaded one the bay
+# seconds between two readings grow with the speed-up, and the no-load ramp's guard, which
+# extrapolates two more steps like the last, may then stop a ramp that would have been fine.
+DEFAULT_TIME_SCALE = 20.0
 
 
 def pytest_addoption(parser: pytest.Parser) -> None:
@@ -35,12 +39,23 @@ def pytest_addoption(parser: pytest.Parser) -> None:
     group.addoption("--rehearse-sim", default=DEFAULT_SIM, metavar="SCENARIO",
                     help="the simulated unit of sequences that name none in rehearse.scenario "
                          "(default: nameplate, a unit built from the sequence's own nameplate)")
-    group.addoption("--rehearse-time-scale", type=float, default=50.0, metavar="X",
-                    help="simulated bay speed-up (default 50)")
+    group.addoption("--rehearse-time-scale", type=float, default=DEFAULT_TIME_SCALE, metavar="X",
+                    help=f"simulated bay speed-up (default {DEFAULT_TIME_SCALE:g}, the run's own)")
     group.addoption("--rehearse-timeout", type=float, default=1800.0, metavar="SECONDS",
                     help="real seconds after which a rehearsal counts as stuck (default 1800)")
     group.addoption("--rehearse-data", type=Path, metavar="DIR",
                     help="where the runs' store and reports go (default: HARNESS_DATA, else a new temp folder)")
+
+
+@pytest.hookimpl(tryfirst=True)
+def pytest_load_initial_conftests(early_config: pytest.Config, args: list[str], parser: pytest.Parser) -> None:
+    """Without test paths on the command line, the folders are the initial paths: the project's
+    own testpaths (and their conftest files, which may need the project's test extras) are not
+    loaded for a rehearsal."""
+    namespace = early_config.known_args_namespace
+    folders = getattr(namespace, "rehearse", None)
+    if folders and not getattr(namespace, "file_or_dir", None):
+        namespace.file_or_dir = list(folders)
 
 
 def _folders(config: pytest.Config) -> list[Path]:

@@ -128,3 +128,15 @@ def test_check_a_folder(tmp_path: Path) -> None:
     assert proc.returncode == 2
     assert str(folder / "broken.yaml") in proc.stderr and "good.yaml" not in proc.stderr
     assert f"{folder / 'good.yaml'}: valid" in proc.stdout and "1 of 2 sequences valid" in proc.stdout
+
+
+def test_a_three_phase_unit_from_its_nameplate(tmp_path: Path) -> None:
+    """The 400 kVA Dyn11 sequence on the unit built from its nameplate (time scale 20: on a loaded
+    host a faster bay puts the no-load ramp's readings far apart, and its guard extrapolates them)."""
+    name = "routine_three_phase.yaml"
+    code, doc, _ = run_json(str(SEQUENCES / name), "--sim", "nameplate", "--yes", "--time-scale", "20", data=tmp_path)
+    assert (code, doc["status"]) == (0, "passed"), doc["trip"]
+    g, r = _guarantees(name), doc["results"]
+    assert r["no_load"]["loss_W"] == pytest.approx(_si(g["no_load_loss"]), rel=0.01)
+    assert r["load"]["loss_ref_W"] == pytest.approx(_si(g["load_loss"]), rel=0.01)
+    assert r["load"]["impedance_ref_pct"] == pytest.approx(_si(g["impedance"]), rel=0.02)

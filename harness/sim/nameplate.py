@@ -36,7 +36,8 @@ The rules (``RULES`` holds their text; ``harness sim scenario`` writes them besi
   100 kVA, else 1 % (common practice, no source).
 - The bay: the source gives the higher of the sequence's own limits and 115 % of what the unit
   needs (rated LV voltage for the no-load test, the impedance voltage at rated current for the
-  load-loss test), rounded up to a 1-1.2-1.5-2-2.5-3-4-5-6-8 step; its output impedance is
+  load-loss test; at least three times the no-load current, for an excitation sweep past the
+  knee), rounded up to a 1-1.2-1.5-2-2.5-3-4-5-6-8 step; its output impedance is
   0.1 % + j0.2 % of its rating's V/A, its slew a tenth of its voltage rating per second, its
   distortion 0.3 % of 5th harmonic (a linear amplifier; common practice, no source). Above
   1000 V or 50 A (the direct inputs of the built-in analyser) a VT to 100 V and a CT to 5 A sit
@@ -51,6 +52,8 @@ import math
 import zlib
 from dataclasses import dataclass, field
 from typing import Any
+
+from pydantic import ValidationError
 
 from harness.common.yamlio import load_text, validate
 from harness.sim import connections
@@ -328,10 +331,14 @@ def _trim(document: dict[str, Any], p0: float, i0_pct: float) -> dict[str, Any]:
 
 
 def build(n: Nameplate, needs: BayNeeds = BayNeeds()) -> Built:
-    """The scenario of a nameplate; ``ValueError`` for guarantees no unit can have."""
+    """The scenario of a nameplate; ``Unbuildable`` for what no unit or bay can have."""
     document, assumed = scenario_document(n, needs)
     p0, _, _, i0, _ = _guarantees(n)
-    _trim(document, p0, i0)
+    try:
+        _trim(document, p0, i0)
+    except ValidationError as exc:   # e.g. a bay beyond the plausible bounds the sequence's limits ask for
+        first = exc.errors()[0]
+        _refuse(f"{'.'.join(str(p) for p in first['loc'])}: {first['msg']}")
     text = scenario_yaml(document)
     return Built(validate(Scenario, load_text(text, SCENARIO_FILE)), text, assumed)
 

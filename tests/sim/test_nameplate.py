@@ -160,3 +160,10 @@ def test_the_contributor_guide_example_is_the_10_kva_unit() -> None:
     assert t["no_load"]["loss_W"] == pytest.approx(60.0, rel=0.002)
     assert t["load"]["loss_ref_W"] == pytest.approx(250.0, rel=0.002)
     assert t["load"]["impedance_ref_pct"] == pytest.approx(4.0, rel=0.002)
+
+
+def test_a_bay_beyond_the_plausible_bounds_is_refused_plainly() -> None:
+    from harness.sim.nameplate import Unbuildable
+    # a 90 MW power limit on a 150 V source would take a 600 kA source
+    with pytest.raises(Unbuildable, match="source.max_current"):
+        build(UNITS["3 kVA 230/115 V"], BayNeeds(power=9e7))

@@ -48,18 +48,27 @@ def _parser() -> argparse.ArgumentParser:
     run = sub.add_parser("run", help="run a test sequence (the built-in simulated bay without --station)")
     run.add_argument("sequence", type=Path)
     run.add_argument("--station", type=Path)
-    run.add_argument("--sim", default="default", metavar="SCENARIO", help="simulated-bay scenario")
+    run.add_argument("--sim", metavar="SCENARIO", help=(
+        "the simulated unit - 'nameplate' (built from the sequence's nameplate and guarantees), a built-in "
+        "scenario's name or a scenario file; without --station default: the sequence's rehearse.scenario, else "
+        "'default'; with --station: rehearse that station served by the simulated bay"))
+    run.add_argument("--allow-mismatch", action="store_true",
+                     help="run on a simulated unit whose nameplate differs from the sequence's")
     run.add_argument("--fault", action="append", default=[], metavar="NAME", help="inject a fault (simulated bay)")
     run.add_argument("--time-scale", type=_scale, metavar="X", help="simulated bay speed-up (default 20)")
     run.add_argument("--yes", action="store_true", help="answer prompts (simulated bay only)")
     run.add_argument("--json", action="store_true")
     run.add_argument("--pdf", action="store_true", help="also print the report to report.pdf (headless Chromium)")
 
-    chk = sub.add_parser("check", help="validate a sequence against a station; nothing is energised")
-    chk.add_argument("sequence", type=Path)
+    chk = sub.add_parser("check", help="validate a sequence (or every sequence in a folder) against a station; "
+                                       "nothing is energised")
+    chk.add_argument("sequence", type=Path, metavar="SEQUENCE_OR_DIR")
     chk.add_argument("--station", type=Path)
-    chk.add_argument("--sim", default="default", metavar="SCENARIO",
-                     help="without --station: check against this simulated bay (a name or a scenario file)")
+    chk.add_argument("--sim", metavar="SCENARIO",
+                     help="without --station: check against this simulated bay ('nameplate', a name or a scenario "
+                          "file; default: the sequence's rehearse.scenario, else 'default')")
+    chk.add_argument("--allow-mismatch", action="store_true",
+                     help="accept a simulated unit whose nameplate differs from the sequence's")
 
     ev = sub.add_parser("evaluate", help="evaluate a record of readings taken by hand")
     ev.add_argument("record", type=Path)
@@ -91,8 +100,14 @@ def _parser() -> argparse.ArgumentParser:
     serve.add_argument("--time-scale", type=_scale, default=1.0, metavar="X")
     serve.add_argument("--fault", action="append", default=[], metavar="NAME")
     truth = sim.add_parser("truth", help="the model's true values from its own parameters")
-    truth.add_argument("scenario", nargs="?", default="default")
+    truth.add_argument("scenario", nargs="?", default="default",
+                       help="a scenario's name or file, or 'nameplate' followed by the sequence")
+    truth.add_argument("sequence", nargs="?", type=Path, help="with 'nameplate': the sequence to build the unit from")
+    truth.add_argument("--sim", dest="sim_option", metavar="SCENARIO", help="the same as the SCENARIO argument")
     truth.add_argument("--json", action="store_true")
+    scen = sim.add_parser("scenario", help="write the unit and bay built from a sequence's nameplate as a "
+                                           "scenario file (to stdout)")
+    scen.add_argument("sequence", type=Path)
 
     bench = sub.add_parser("bench", help="benchmarks: each prints its figures against its goal")
     bench.add_argument("which", choices=["startup", "report", "overhead", "ramp", "sequence", "reduce", "store"])
@@ -133,7 +148,8 @@ def cmd_run(args: argparse.Namespace) -> int:
 
     # At a terminal, a run that stopped shows its outcome at once; its report follows in the background.
     options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes,
-                         quiet=args.json, defer_stopped_report=not args.json, pdf=args.pdf)
+                         quiet=args.json, defer_stopped_report=not args.json, pdf=args.pdf,
+                         allow_mismatch=args.allow_mismatch)
     if args.pdf:
         from harness.report.pdf import find_chromium
         find_chromium()  # no browser: say so before anything is begun
@@ -185,18 +201,51 @@ def _check_faults(options: Any) -> None:
     for name in options.faults:
         if name not in FAULTS:
             raise UsageError(f"--fault: unknown fault '{name}'; known: {', '.join(sorted(FAULTS))}")
-    if options.faults and options.station is not None:
-        raise UsageError("--fault injects into the built-in simulated bay; drop --station")
+    if options.faults and options.station is not None and options.scenario is None:
+        raise UsageError("--fault injects into the simulated bay; drop --station, or give --sim to rehearse the "
+                         "station on the simulated bay")
 
 
 def cmd_check(args: argparse.Namespace) -> int:
     from harness.runner.prepare import RunOptions, prepare
-    prepared = prepare(RunOptions(args.sequence, args.station, args.sim))
+    if args.sequence.is_dir() and args.sequence.suffix not in (".yaml", ".yml"):
+        return _check_folder(args)  # a folder named like a sequence file is refused as one
+    prepared = prepare(RunOptions(args.sequence, args.station, args.sim, allow_mismatch=args.allow_mismatch))
     steps = len(prepared.sequence.steps)
-    print(f"{args.sequence}: valid against {prepared.station_file} ({steps} steps); nothing was energised")
+    print(f"{args.sequence}: valid against {_bay_name(prepared)} ({steps} steps); nothing was energised")
     for line in prepared.calibration:
         print(f"  {line}")
     return 0
+
+
+def _bay_name(prepared: Any) -> str:
+    if prepared.scenario_name is None:
+        return prepared.station_file
+    return f"{prepared.station_file} (scenario {prepared.scenario_name})"
+
+
+def _check_folder(args: argparse.Namespace) -> int:
+    """Every sequence in the folder: each valid one on a line, each refusal as its own lines; exit 2 if any."""
+    from harness.runner.folder import sequence_files
+    from harness.runner.prepare import RunOptions, prepare
+    files = sequence_files(args.sequence)
+    if not files:
+        raise UsageError(f"{args.sequence}: no sequence files (*.yaml, *.yml) in this folder")
+    invalid = 0
+    for path in files:
+        try:
+            prepared = prepare(RunOptions(path, args.station, args.sim, allow_mismatch=args.allow_mismatch))
+        except InputError as exc:
+            invalid += 1
+            print(str(exc), file=sys.stderr)
+            continue
+        except HarnessError as exc:
+            invalid += 1
+            print(f"{path}: {exc}", file=sys.stderr)
+            continue
+        print(f"{path}: valid against {_bay_name(prepared)} ({len(prepared.sequence.steps)} steps)")
+    print(f"{len(files) - invalid} of {len(files)} sequences valid; nothing was energised")
+    return 2 if invalid else 0
 
 
 def cmd_evaluate(args: argparse.Namespace) -> int:
@@ -288,10 +337,27 @@ def cmd_schema(args: argparse.Namespace) -> int:
 
 
 def cmd_sim(args: argparse.Namespace) -> int:
+    if args.sim_command == "scenario":
+        sys.stdout.write(_nameplate_scenario(args.sequence).text)
+        return 0
     if args.sim_command == "truth":
         from harness.sim.scenario import load_scenario
         from harness.sim.truth import truth
-        document = truth(load_scenario(args.scenario))
+        name, sequence = args.scenario, args.sequence
+        if args.sim_option is not None:
+            # harness sim truth --sim nameplate SEQUENCE: the positional is then the sequence
+            if sequence is not None:
+                raise UsageError("sim truth: give the scenario once (as SCENARIO or --sim)")
+            name, sequence = args.sim_option, None if args.scenario == "default" else Path(args.scenario)
+        if name == "nameplate":
+            if sequence is None:
+                raise UsageError("sim truth nameplate: give the sequence, e.g. harness sim truth nameplate SEQUENCE")
+            scenario = _nameplate_scenario(sequence).scenario
+        elif sequence is not None:
+            raise UsageError("sim truth: a sequence is only read with 'nameplate'")
+        else:
+            scenario = load_scenario(name)
+        document = truth(scenario)
         if args.json:
             _emit(document)
         else:
@@ -299,6 +365,14 @@ def cmd_sim(args: argparse.Namespace) -> int:
         return 0
     from harness.runner.simserve import serve
     return serve(args.scenario, args.time_scale, tuple(args.fault))
+
+
+def _nameplate_scenario(path: Path) -> Any:
+    from harness.common.yamlio import load_file, validate
+    from harness.config.sequence import Sequence
+    from harness.runner.rehearsal import nameplate_scenario
+    loaded = load_file(path)
+    return nameplate_scenario(validate(Sequence, loaded), loaded)
 
 
 def cmd_bench(args: argparse.Namespace) -> int:

@@ -23,6 +23,14 @@ class Unit(BaseModel):
     customer_order: str | None = None
 
 
+class Rehearsal(BaseModel):
+    """Where the sequence is rehearsed when no station is given (``harness run``, ``pytest --rehearse``)."""
+    model_config = ConfigDict(frozen=True, extra="forbid")
+    scenario: str = Field(min_length=1, description=(
+        "'nameplate' (a unit and bay built from this sequence's nameplate and guarantees), a built-in "
+        "scenario's name (e.g. three-phase), or a scenario file, relative to this sequence's folder"))
+
+
 class Sequence(BaseModel):
     model_config = ConfigDict(frozen=True, extra="forbid", populate_by_name=True)
     schema_: str | None = Field(None, alias="$schema", description="JSON Schema for editors")
@@ -39,6 +47,7 @@ class Sequence(BaseModel):
         None, min_length=1, description="efficiency regulations to check the unit against")
     limits: Limits = Field(description="test limits: each must sit inside the station's")
     steps: list[AnyStep] = Field(min_length=1)
+    rehearse: Rehearsal | None = Field(None, description="the simulated unit to rehearse on without a station")
 
     @model_validator(mode="after")
     def _edition_of_standard(self) -> "Sequence":

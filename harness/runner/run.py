@@ -15,7 +15,6 @@ from typing import Any, Iterator
 from drivers.errors import InstrumentError, InstrumentReportedError
 from harness import __version__
 from harness.common.clock import Clock
-from harness.runner.sim_station import sim_station
 from harness.config.station import Station
 from harness.runner.bay import open_bay
 from harness.runner.context import Run
@@ -41,9 +40,9 @@ def simulated_bay(prepared: Prepared, options: RunOptions, clock: Clock) -> Iter
     from harness.sim.bay import Bay as SimBay
     from harness.sim.server import SimServer
 
-    scenario = prepared.scenario
-    with SimServer(SimBay(scenario, clock, faults=options.faults)) as server:
-        yield sim_station(server.resources(), scenario)
+    assert prepared.serve is not None
+    with SimServer(SimBay(prepared.scenario, clock, faults=options.faults)) as server:
+        yield prepared.serve(server.resources())
 
 
 @dataclass
@@ -78,12 +77,12 @@ def execute(options: RunOptions, store: Any, signals: StopSignals | None = None)
             scale = options.time_scale or (DEFAULT_SIM_TIME_SCALE if prepared.station.simulated else 1.0)
             clock = Clock(scale)
             station, station_text = prepared.station, prepared.station_text
-            if options.station is None:
+            if prepared.serve is not None:
                 station, station_text = stack.enter_context(simulated_bay(prepared, options, clock))
         run_id = store.begin_run(
             unit=prepared.sequence.unit.serial, lab=station.lab, station_name=station.name,
             sequence_text=prepared.sequence_text, station_text=station_text, software_version=__version__,
-            simulated={"scenario": options.scenario, "faults": list(options.faults), "time_scale": scale} if station.simulated else None)
+            simulated={"scenario": prepared.scenario_name, "faults": list(options.faults), "time_scale": scale} if station.simulated else None)
         progress = GuardedDisplay(stack.enter_context(Progress(quiet=options.quiet)))
         recorder = Recorder(store, run_id)
         try:

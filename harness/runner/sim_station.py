@@ -59,7 +59,7 @@ limits:                 # the bay's hard limits: its source's ratings (line-to-l
   energised_time: 2 h
   winding_temperature: 110 degC
   slew: {max_slew}
-safe_state: {{deenergised_voltage: 5 V, deenergised_current: 0.05 A, confirm_timeout: 5 s}}
+safe_state: {{deenergised_voltage: {deenergised_voltage}, deenergised_current: {deenergised_current}, confirm_timeout: 5 s}}
 readings: {{late_after: 1 s, stale_after: 5 s, temperature_interval: 2 s}}
 """
 
@@ -79,6 +79,7 @@ def scenario_fields(scenario: Any) -> dict[str, Any]:
     channels = ", ".join(f"{w}: {list(c) if isinstance(c, (list, tuple)) else c}"
                          for w, c in scenario.resistance_meter.channels.items())
     return {
+        **deenergised_thresholds(scenario),
         "source_profile": "three-phase-ac-source" if phases == 3 else "generic-ac-source",
         "resistance_channels": "{" + channels + "}",
         "max_voltage": f"{line_voltage:g} V", "max_current": f"{src.max_current:g} A",
@@ -92,6 +93,28 @@ def scenario_fields(scenario: Any) -> dict[str, Any]:
         "serial": f"SIM{scenario.seed:04d}",  # what the simulated instruments answer to *IDN?
         "rm_accuracy": scenario.resistance_meter.accuracy, "th_accuracy": scenario.thermometer.accuracy,
     }
+
+
+# The de-energised thresholds: 5 V and 0.05 A, or, where the analyser's own error at zero input on
+# its top range (its range accuracy plus three sigma of its range noise, through the VT/CT) is
+# not small against them, 1.5 times that error, so the off state is confirmed by a reading
+# the instrument can make; never 50 V (extra-low voltage, IEC 61140) or more.
+DEENERGISED_FLOOR = (5.0, 0.05)
+ZERO_ERROR_MARGIN = 1.5
+ELV_AC_V = 50.0
+
+
+def deenergised_thresholds(scenario: Any) -> dict[str, str]:
+    an = scenario.analyser
+    out = {}
+    for q, top, ratio, floor, unit in (("voltage", an.voltage_ranges[-1], an.vt_ratio, DEENERGISED_FLOOR[0], "V"),
+                                       ("current", an.current_ranges[-1], an.ct_ratio, DEENERGISED_FLOOR[1], "A")):
+        zero_error = (getattr(an.accuracy, q).range + 3.0 * getattr(an.noise, q).range) / 100.0 * top * ratio
+        value = max(floor, ZERO_ERROR_MARGIN * zero_error)
+        if q == "voltage":
+            value = min(value, 0.9 * ELV_AC_V)
+        out[f"deenergised_{q}"] = f"{value:.3g} {unit}"
+    return out
 
 
 def sim_station_text(resources: dict[str, str] | None = None, scenario: Any = None) -> str:

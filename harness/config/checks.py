@@ -13,7 +13,7 @@ from harness.common.errors import InputError, InputErrors
 from harness.common.yamlio import LoadedYaml
 from harness.config.sequence import Sequence
 from harness.config.station import Limits, Station
-from harness.config.steps import Measure, Prompt, Ramp, Repeat, Resistance, Sweep, TargetStep, Wiring
+from harness.config.steps import Measure, Prompt, Ramp, Ratio, Repeat, Resistance, Sweep, TargetStep, Wiring
 from harness.config.reach import current_per_volt, fixed_increment_volts, magnetising_current, ramp_reach
 from harness.config.targets import parse_target
 
@@ -95,8 +95,10 @@ class _Checker:
                 wiring = step.wiring
             elif isinstance(step, Repeat):
                 wiring = self.walk(step.steps, here + ("steps",), step_limits, wiring)
-            elif isinstance(step, (Ramp, Sweep)):
+            elif isinstance(step, (Ramp, Sweep, Ratio)):
                 self.targets(step, here, step_limits, wiring)
+                if isinstance(step, Ratio):
+                    self.ratio_setup(step, here, wiring)
             elif isinstance(step, Measure):
                 self.measure_wiring(step, here, wiring)
             elif isinstance(step, Resistance):
@@ -114,13 +116,13 @@ class _Checker:
                 self.fail(path + ("windings", i), f"the station's resistance meter has {count} channel(s) for the "
                                                   f"{winding} winding; a {phases}-phase unit needs {phases}")
 
-    def targets(self, step: Ramp | Sweep, path: tuple[Any, ...], limits: EffectiveLimits, wiring: Wiring | None) -> None:
+    def targets(self, step: Ramp | Sweep | Ratio, path: tuple[Any, ...], limits: EffectiveLimits, wiring: Wiring | None) -> None:
         if wiring is None:
             self.fail(path, f"{step.kind} before any prompt declares the wiring (which winding is fed)")
             return
-        texts = [step.target] if isinstance(step, Ramp) else step.targets
+        texts = step.targets if isinstance(step, Sweep) else [step.target]
         for i, text in enumerate(texts):
-            where = path + (step.quantity,) + (() if isinstance(step, Ramp) else (i,))
+            where = path + (step.quantity,) + ((i,) if isinstance(step, Sweep) else ())
             named = parse_target(text, "V" if step.quantity == "voltage" else "A").winding
             if step.quantity == "voltage" and named not in (None, wiring.fed):
                 self.fail(where, f"a voltage target of the {named.upper()} winding while the {wiring.fed.upper()} "
@@ -192,6 +194,23 @@ class _Checker:
         g = self.sequence.guarantees
         return getattr(g, name, None) if g is not None else None
 
+    def ratio_setup(self, step: Ratio, path: tuple[Any, ...], wiring: Wiring | None) -> None:
+        """The other winding open, the analyser's open-winding channels (one per phase) and taps
+        the nameplate has."""
+        if wiring is not None and wiring.other != "open":
+            self.fail(path, "a ratio step needs the other winding open; declare it in a prompt's wiring before")
+        phases = self.sequence.transformer.phases
+        given = self.station.instruments.analyser.channels.get(OPEN_WINDING)
+        count = 0 if given is None else 1 if isinstance(given, int) else len(given)
+        if count != phases:
+            self.fail(path, f"the station's analyser has {count} channel(s) named '{OPEN_WINDING}' (the other "
+                            f"winding's voltage); a {phases}-phase unit needs {phases}")
+        taps = self.sequence.transformer.taps
+        known = taps.positions() if taps is not None else (0,)
+        for i, tap in enumerate(step.taps if isinstance(step.taps, list) else ()):
+            if tap not in known:
+                self.fail(path + ("taps", i), f"tap {tap} is not on the nameplate (taps {known[0]} to {known[-1]})")
+
     def expected_voltage(self, current: float, winding: str) -> float | None:
         impedance = self.guaranteed("impedance")
         if impedance is None:
@@ -203,6 +222,9 @@ class _Checker:
         if wanted and (wiring is None or wiring.other != wanted):
             self.fail(path + ("test",), f"a {step.test} measure needs the other winding {wanted}; "
                                         "declare it in a prompt's wiring before")
+
+
+OPEN_WINDING = "open_winding"
 
 
 def check(sequence: Sequence, station: Station, loaded: LoadedYaml) -> None:

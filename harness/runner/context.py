@@ -87,6 +87,9 @@ class Run:
     readings: list[MeasuredReading] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
     gains: dict[str, float] = field(default_factory=dict)
+    tap: int | None = None  # the tap changer's position once an operator set it (None: not yet known)
+    ratio_readings: list[dict[str, Any]] = field(default_factory=list)
+    """The ratio test per tap: tap, fed winding, HV and LV voltages and the LV lag (rad) per phase pair."""
     _next_temperature_t: float = 0.0
     _next_source_t: float = 0.0
     _ranges: tuple[float, float] = (0.0, 0.0)

@@ -20,7 +20,7 @@ lab: Harness simulated test bay (no hardware)
 simulated: true
 instruments:
   source: {{resource: "{source}", profile: {source_profile}, timeout: 2 s}}
-  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 2 s}}
+  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 2 s{analyser_channels}}}
   resistance_meter:
     resource: "{resistance_meter}"
     profile: generic-resistance-meter
@@ -77,6 +77,7 @@ def scenario_fields(scenario: Any) -> dict[str, Any]:
     channels = ", ".join(f"{w}: {list(c) if isinstance(c, (list, tuple)) else c}"
                          for w, c in scenario.resistance_meter.channels.items())
     return {
+        "analyser_channels": (f", channels: {{open_winding: {list(an.open_winding)}}}" if an.open_winding else ""),
         "source_profile": "three-phase-ac-source" if phases == 3 else "generic-ac-source",
         "resistance_channels": "{" + channels + "}",
         "max_voltage": f"{line_voltage:g} V", "max_current": f"{src.max_current:g} A",

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import sys
+from typing import Any, Callable
 
 from harness.runner.context import Run
 from harness.runner.steps import register
@@ -21,16 +22,23 @@ def ask(text: str) -> bool:
     return answer.strip().lower() == "done"
 
 
+def operator_change(run: Run, text: str, on_simulated_bay: Callable[[Any], None] | None = None) -> None:
+    """Switch off and confirm, then have the operator make a change (``--yes`` on the simulated
+    bay: its bay control makes it, through ``on_simulated_bay``)."""
+    switch_off(run, "before the prompt")
+    run.event("prompt", text)
+    if run.yes:
+        if on_simulated_bay is not None and run.bay.bay_control is not None:
+            on_simulated_bay(run.bay.bay_control)
+        run.event("prompt-answered", "answered by --yes on the simulated bay")
+    elif not ask(text):
+        raise OperatorAbort(f"operator declined: {text}")
+
+
 @register("prompt")
 def execute(step, run: Run) -> None:
-    switch_off(run, "before the prompt")
-    run.event("prompt", step.text)
-    if run.yes:
-        if step.wiring is not None and run.bay.bay_control is not None:
-            run.bay.bay_control.set_wiring(step.wiring.fed, step.wiring.other)
-        run.event("prompt-answered", "answered by --yes on the simulated bay")
-    elif not ask(step.text):
-        raise OperatorAbort(f"operator declined: {step.text}")
+    wiring = step.wiring
+    operator_change(run, step.text, None if wiring is None else lambda bc: bc.set_wiring(wiring.fed, wiring.other))
     if step.wiring is not None:
         run.wiring = step.wiring
         run.gains.clear()

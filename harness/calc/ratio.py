@@ -28,10 +28,9 @@ RATIO_LIMIT_PCT = 0.5
 IMPEDANCE_FRACTION = 0.1
 CLOCK_STEP_DEG = 30.0
 CLOCK_HALF_STEP_DEG = 15.0
-PRINCIPAL_SOURCE = "IEC 60076-1 Table 1 item 2 (principal tap: lower of 0.5 % and 1/10 of the impedance)"
-OTHER_TAP_SOURCE = ("IEC 60076-1 Table 1 item 2 (other taps: to be agreed, not less than the principal tap's; "
-                    "that least value taken)")
-CLOCK_SOURCE = "IEC 60076-1 Annex D clock number (recalled), nearest 30-degree step"
+PRINCIPAL_SOURCE = "IEC 60076-1 Table 1, voltage ratio, principal tap"
+OTHER_TAP_SOURCE = "IEC 60076-1 Table 1, voltage ratio, other taps (least value)"
+CLOCK_SOURCE = "IEC 60076-1 Annex D (recalled)"
 
 
 def tap_factor(step_pct: float, tap: int) -> float:
@@ -192,8 +191,9 @@ def _tap_check(t: RatioTap, overridden: bool) -> Check:
     where = f" {w.phase}" if w.phase else ""
     voltage = f" ({t.tapped_voltage_V:.6g} V)" if t.tapped_voltage_V is not None else ""
     failed = [p.phase or "the winding" for p in t.phases if not p.passed]
-    note = (f"tap {tap_name(t.tap)}{voltage}: worst{where} {w.deviation_pct:+.3f} % of the declared ratio"
-            + (f"; outside +/-{t.limit_pct:.3g} % on {', '.join(failed)}" if failed else ""))
+    note = (f"tap {tap_name(t.tap)}{voltage}: measured ratio {w.deviation_pct:+.3f} % off the declared "
+            f"{t.declared:.6g}{' on' + where + ' (worst)' if where else ''}"
+            + (f", outside +/-{t.limit_pct:.3g} % on {', '.join(failed)}" if failed else ""))
     band = (t.declared * (1 - t.limit_pct / 100.0), t.declared * (1 + t.limit_pct / 100.0))
     return Check(f"voltage_ratio_tap_{tap_name(t.tap)}", "", w.measured, t.declared, t.limit_pct, band,
                  t.passed, note, "record" if overridden else t.source)
@@ -205,10 +205,13 @@ def _clock_check(result: RatioResult, shown: list[tuple[RatioTap, RatioPhase]]) 
     error, _, _ = max(errors, key=lambda e: abs(e[0]))
     wrong = [f"tap {tap_name(t.tap)}{(' ' + p.phase) if p.phase else ''} clock {p.clock}"
              for _, t, p in errors if not p.clock_passed]
+    clocks = {p.clock for _, _, p in errors}
+    if len(wrong) == len(errors) and len(clocks) == 1:
+        wrong = [f"clock {clocks.pop()} on every tap and phase pair"]
     single = all(not p.phase for _, p in shown)
-    what = "polarity (clock 0: same polarity)" if single else f"clock {c}"
-    note = f"{what} declared; " + (f"found {'; '.join(wrong[:6])}" + (" ..." if len(wrong) > 6 else "")
-                                   if wrong else "every tap and phase pair at the declared clock")
+    what = "same polarity (clock 0)" if single else f"clock {c}"
+    note = f"{what} declared; " + (f"measured {'; '.join(wrong[:6])}" + (" ..." if len(wrong) > 6 else "")
+                                   if wrong else "every tap and phase pair at it")
     nominal = CLOCK_STEP_DEG * c
     return Check("polarity" if single else "phase_displacement", "deg", nominal + error, nominal, math.nan,
                  (nominal - CLOCK_HALF_STEP_DEG, nominal + CLOCK_HALF_STEP_DEG), not wrong, note, CLOCK_SOURCE)

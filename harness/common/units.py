@@ -106,11 +106,15 @@ def to_si(value: Any, unit: str) -> float:
     elif isinstance(value, str) and (plain := _plain(value, unit)) is not None:
         number = plain
     elif isinstance(value, str):
+        import tokenize
+
         import pint
 
         try:
             q = _parse(value.strip())
-        except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError, KeyError, IndexError) as exc:
+        except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError, KeyError, IndexError,
+                tokenize.TokenError) as exc:  # pint's tokenizer raises TokenError on an unbalanced ')'
+
             raise ValueError(f"cannot read '{value}' as {kind} ({unit})") from exc
         if not isinstance(q, pint.Quantity):
             number = float(q)

@@ -77,7 +77,7 @@ def scenario_fields(scenario: Any) -> dict[str, Any]:
     channels = ", ".join(f"{w}: {list(c) if isinstance(c, (list, tuple)) else c}"
                          for w, c in scenario.resistance_meter.channels.items())
     return {
-        "analyser_channels": (f", channels: {{open_winding: {list(an.open_winding)}}}" if an.open_winding else ""),
+        "analyser_channels": (f", channels: {{open_winding: {_one_or_list(an.open_winding)}}}" if an.open_winding else ""),
         "source_profile": "three-phase-ac-source" if phases == 3 else "generic-ac-source",
         "resistance_channels": "{" + channels + "}",
         "max_voltage": f"{line_voltage:g} V", "max_current": f"{src.max_current:g} A",
@@ -90,6 +90,10 @@ def scenario_fields(scenario: Any) -> dict[str, Any]:
         "current_ranges": ", ".join(f"{r:g} A" for r in an.current_ranges),
         "rm_accuracy": scenario.resistance_meter.accuracy, "th_accuracy": scenario.thermometer.accuracy,
     }
+
+
+def _one_or_list(channels: tuple[int, ...]) -> int | list[int]:
+    return channels[0] if len(channels) == 1 else list(channels)
 
 
 def sim_station_text(resources: dict[str, str] | None = None, scenario: Any = None) -> str:

@@ -121,10 +121,12 @@ def another_clock(hv: Connection, lv: Connection, clock: int) -> tuple[Arrangeme
     """The same connections wired for another clock number, the polarity kept (a delta closed on
     the other pair of terminals, a zigzag's halves swapped): the wrong-vector-group fault. A star/star
     unit can only be reversed (six hours on)."""
-    for a_hv in _options(hv, (1,)):
-        for a_lv in _options(lv, (1,)) + _options(lv, (-1,)):
-            if clock_of(a_hv, a_lv) != clock:
-                return a_hv, a_lv
+    declared = arrangements(hv, lv, clock)[1].polarity
+    for polarity in (declared, -declared):
+        for a_hv in _options(hv, (1,)):
+            for a_lv in _options(lv, (polarity,)):
+                if clock_of(a_hv, a_lv) != clock:
+                    return a_hv, a_lv
     raise ValueError(f"a {hv}/{lv} unit has no other clock")
 
 

@@ -64,8 +64,9 @@ def resolve_target(sequence: Sequence, step: TargetStep | Sweep, text: str, wind
 
 
 class _Checker:
-    def __init__(self, sequence: Sequence, station: Station, loaded: LoadedYaml):
+    def __init__(self, sequence: Sequence, station: Station, loaded: LoadedYaml, load_profile: Any = None):
         self.sequence, self.station, self.loaded = sequence, station, loaded
+        self.load_profile = load_profile
         self.errors: list[InputError] = []
 
     def fail(self, path: tuple[Any, ...], message: str) -> None:
@@ -205,11 +206,26 @@ class _Checker:
         if count != phases:
             self.fail(path, f"the station's analyser has {count} channel(s) named '{OPEN_WINDING}' (the other "
                             f"winding's voltage); a {phases}-phase unit needs {phases}")
+        missing = self.ratio_commands_missing()
+        if missing:
+            self.fail(path, f"the analyser's command profile '{self.station.instruments.analyser.profile}' has no "
+                            f"{', '.join(missing)}: a ratio step reads the open winding's voltages and phase angles")
         taps = self.sequence.transformer.taps
         known = taps.positions() if taps is not None else (0,)
         for i, tap in enumerate(step.taps if isinstance(step.taps, list) else ()):
             if tap not in known:
                 self.fail(path + ("taps", i), f"tap {tap} is not on the nameplate (taps {known[0]} to {known[-1]})")
+
+    def ratio_commands_missing(self) -> list[str]:
+        """The analyser operations a ratio step needs that its profile lacks (none checked without
+        a profile loader; a profile that does not load is the station check's to report)."""
+        if self.load_profile is None:
+            return []
+        try:
+            commands = self.load_profile(self.station.instruments.analyser.profile, "power_analyser").commands
+        except Exception:  # noqa: BLE001 - reported by the station check, at the station's line
+            return []
+        return [op for op in RATIO_OPERATIONS if getattr(commands, op, None) is None]
 
     def expected_voltage(self, current: float, winding: str) -> float | None:
         impedance = self.guaranteed("impedance")
@@ -225,10 +241,13 @@ class _Checker:
 
 
 OPEN_WINDING = "open_winding"
+RATIO_OPERATIONS = ("set_channel_voltage_range", "voltages", "phase_angle")
 
 
-def check(sequence: Sequence, station: Station, loaded: LoadedYaml) -> None:
-    """Raise :class:`InputErrors` listing every problem, or return when the pair is sound."""
-    errors = _Checker(sequence, station, loaded).run()
+def check(sequence: Sequence, station: Station, loaded: LoadedYaml, load_profile: Any = None) -> None:
+    """Raise :class:`InputErrors` listing every problem, or return when the pair is sound.
+    ``load_profile`` (``(name, kind) -> profile``, the drivers' loader) lets the check see what the
+    instruments' command profiles offer."""
+    errors = _Checker(sequence, station, loaded, load_profile).run()
     if errors:
         raise InputErrors(errors)

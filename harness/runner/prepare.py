@@ -62,7 +62,7 @@ def prepare(options: RunOptions) -> Prepared:
         st_loaded = load_file(options.station)
         station, station_text, station_file = validate(Station, st_loaded), st_loaded.text, str(options.station)
     check_station(station, st_loaded, load_profile)
-    check(sequence, station, loaded)
+    check(sequence, station, loaded, load_profile)
     if options.yes and not station.simulated:
         raise InputError("--yes answers prompts only on the simulated bay; a real bay needs its operator",
                          station_file, 1, 1)

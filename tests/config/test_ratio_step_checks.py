@@ -53,3 +53,18 @@ def test_a_station_without_open_winding_channels_is_refused(tmp_path) -> None:
     path.write_text(scenario.replace("  open_winding: [2]", "  # open_winding: [2]"), encoding="utf-8")
     found = refusals(tmp_path, RATIO, RATIO, scenario=str(path))
     assert any("'open_winding'" in e.message for e in found)
+
+
+def test_an_analyser_profile_without_the_ratio_commands_is_refused(tmp_path) -> None:
+    station = tmp_path / "station.yaml"
+    from harness.runner.sim_station import sim_station_text
+    station.write_text(sim_station_text().replace("profile: generic-power-analyser", "profile: compact-power-analyser"),
+                       encoding="utf-8")
+    text = ROUTINE.read_text(encoding="utf-8")
+    path = tmp_path / "seq.yaml"
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises((InputError, InputErrors)) as caught:
+        prepare(RunOptions(path, station=station))
+    errors = caught.value.errors if isinstance(caught.value, InputErrors) else [caught.value]
+    assert any("compact-power-analyser' has no set_channel_voltage_range, voltages, phase_angle" in e.message
+               for e in errors)

@@ -1,6 +1,7 @@
 """Wiring of the simulated bay (our own command profile): which winding is fed, and whether the
 other is open or short-circuited by the link. A real bay changes wiring by hand, at an operator
-prompt with the output off; only the simulated bay takes these commands."""
+prompt with the output off; only the simulated bay takes these commands. The same holds for
+the off-circuit tap changer's position (``set_tap``)."""
 
 from __future__ import annotations
 
@@ -32,6 +33,14 @@ class BayControl(ScpiInstrument):
         fed = self._choose(self._template("fed"), ("hv", "lv"))
         other = self._choose(self._template("other"), ("open", "short"))
         return fed, other  # type: ignore[return-value]
+
+    def set_tap(self, tap: int) -> None:
+        if isinstance(tap, bool) or not isinstance(tap, int):
+            raise ValueError(f"a tap is a whole number, got {tap!r}")
+        self.configure(self._template("set_tap").format(value=tap))
+
+    def tap(self) -> int:
+        return int(self._query_number(self._template("tap"), "tap position"))
 
     def _choose(self, command: str, names: tuple[str, str]) -> str:
         reply = self._query(command)

@@ -153,6 +153,37 @@ class PowerAnalyser(ScpiInstrument):
         return (self._query_number(self._template("voltage_range"), "voltage range"),
                 self._query_number(self._template("current_range"), "current range"))
 
+    # --- the ratio test: the open winding's channels and phase angles
+
+    def set_channel_voltage_range(self, volts: float, channels: tuple[int, ...]) -> None:
+        """The voltage range of ``channels`` only (the others keep theirs)."""
+        value = require_finite(volts, "the voltage range")
+        self.configure(self._template("set_channel_voltage_range").format(value=value, channels=channel_list(channels)))
+
+    def voltages(self, channels: tuple[int, ...]) -> tuple[float, ...]:
+        """The rms voltages (V at the inputs) of ``channels``, from one query; an overload or a
+        not-a-number value raises as in a snapshot."""
+        command = self._template("voltages").format(channels=channel_list(channels))
+        reply = self._query(command)
+        parts = reply.split(",")
+        if len(parts) != len(channels):
+            raise ProtocolError(f"expected {len(channels)} voltage(s), got '{reply}'", self.name, command)
+        try:
+            values = tuple(parse_number(p) for p in parts)
+        except ValueError as exc:
+            raise ProtocolError(f"voltage reply unreadable ({exc}): '{reply}'", self.name, command) from None
+        for ch, value in zip(channels, values):
+            check_reading(value, f"voltage of channel {ch}", self.name, command)
+        return values
+
+    def phase_angle(self, reference: int, channel: int) -> float:
+        """Degrees by which ``channel``'s voltage leads ``reference``'s, in (-180, 180]."""
+        command = self._template("phase_angle").format(channels=channel_list((reference, channel)))
+        angle = self._query_number(command, "phase angle")
+        if not -180.0 <= angle <= 180.0:
+            raise ProtocolError(f"a phase angle lies in -180..180 degrees, got {angle:g}", self.name, command)
+        return angle
+
     def set_averaging(self, seconds: float) -> None:
         """The averaging time, which is also the interval between fresh readings."""
         value = require_finite(seconds, "the averaging time")

@@ -161,6 +161,8 @@ class PowerAnalyserCommands(_Commands):
         "set_voltage_range": (_N, False), "voltage_range": (_Q, True),
         "set_current_range": (_N, False), "current_range": (_Q, True),
         "set_averaging": (_N, False), "averaging": (_Q, True),
+        "set_channel_voltage_range": (frozenset({"value", "channels"}), False),
+        "voltages": (_C, True), "phase_angle": (_C, True),
     }
     set_voltage_range: str
     voltage_range: str | None = None
@@ -168,6 +170,11 @@ class PowerAnalyserCommands(_Commands):
     current_range: str | None = None
     set_averaging: str | None = None
     averaging: str | None = None
+    # The ratio test: the voltage range of some channels only, the rms voltages of a channel list
+    # (comma-separated), and the phase angle of the second channel of {channels} against the first.
+    set_channel_voltage_range: str | None = None
+    voltages: str | None = None
+    phase_angle: str | None = None
 
 
 class ResistanceMeterCommands(_Commands):
@@ -183,11 +190,14 @@ class ThermometerCommands(_Commands):
 
 class BayControlCommands(_Commands):
     SPECS = {"set_fed": (frozenset({"fed"}), False), "fed": (_Q, True),
-             "set_other": (frozenset({"other"}), False), "other": (_Q, True)}
+             "set_other": (frozenset({"other"}), False), "other": (_Q, True),
+             "set_tap": (_N, False), "tap": (_Q, True)}
     set_fed: str
     fed: str
     set_other: str
     other: str
+    set_tap: str | None = None
+    tap: str | None = None
 
 
 class _Words(_Strict):

@@ -9,13 +9,15 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from harness.calc import circuit, compliance, performance, temperature, uncertainty
+from harness.calc import circuit, compliance, performance, ratio, temperature, uncertainty
+from harness.calc.phases import values_of
+from harness.calc.vector_group import parse_vector_group
 from harness.calc.phase_table import phase_table
 from harness.calc.basis import Basis, basis_of
 from harness.calc.corrections import corrected_record
 from harness.calc.load import LoadResult, evaluate_load
 from harness.calc.no_load import NoLoadResult, evaluate_no_load, shunt, waveform_settings
-from harness.calc.record import Record
+from harness.calc.record import Record, Transformer
 from harness.calc.results import Branches, EfficiencyRow, MaxEfficiency, RegulationRow, Results
 from harness.calc.standards import IEEE_NO_LOAD_KT_PER_C
 from harness.calc.tolerances import flag_uncertain, guarantee_checks, tolerance_source, untoleranced
@@ -54,20 +56,22 @@ def evaluate(record: Record, loads: Sequence[float] | None = None,
     checks = flag_uncertain(guarantee_checks(p0, pk, z, i0, record.guarantees, record.tolerances, record.standard),
                             {q: b.expanded for q, b in budgets.items()})
     rules, rule_warnings = compliance_checks(record, basis, nl, ld)
+    ratio_result, r_checks, r_warnings = ratio_section(record, ld)
     return Results(
         rated_current_A={w: basis.rated_current(w) for w in ("hv", "lv")},
         no_load=nl, load=ld, equivalent_circuit=equivalent_circuit(record, nl, ld, basis),
         efficiency=efficiency_table(eff_loads, pfs, basis, p0, pk),
         max_efficiency=max_efficiency(record, basis, p0, pk),
         regulation=regulation_table(reg_loads, pfs, ld),
-        checks=tuple(checks),
+        checks=tuple(checks + r_checks),
         warnings=tuple(warnings + u_warnings + skipped_guarantee_warnings(record) + untoleranced_warnings(record)
-                       + uncertain_check_warnings(checks) + rule_warnings),
+                       + uncertain_check_warnings(checks) + rule_warnings + r_warnings),
         corrections=corrections,
         uncertainty=budgets,
         tolerance_source=tolerance_source(record.standard),
         compliance=tuple(rules),
         phases=phase_table(record),
+        ratio=ratio_result,
     )
 
 
@@ -220,3 +224,42 @@ def doe_inputs(record: Record, basis: Basis, nl: NoLoadResult, ld: LoadResult) -
     t = record.transformer
     return compliance.DoeInputs(basis.rated_power_VA, basis.phases, t.frequency, t.insulation, t.voltage_class,
                                 p0_20, nl.loss_waveform_corrected_W, at, ld.loss_W)
+
+
+def ratio_section(record: Record, ld: LoadResult | None) -> tuple[ratio.RatioResult | None, list, list[str]]:
+    """The ratio test of the record: its tolerance from the record's override, else from the
+    impedance (measured by the same record's load-loss test, else the guaranteed one)."""
+    test = record.ratio
+    if test is None:
+        return None, [], []
+    t = record.transformer
+    override = record.tolerances.ratio if record.tolerances is not None else None
+    guaranteed = record.guarantees.impedance if record.guarantees is not None else None
+    if override is not None:
+        z, basis, limit = None, "record", override
+    elif ld is not None:
+        z, basis = ld.performance_impedance_pct, "measured"
+        limit = ratio.ratio_limit_pct(z)
+    else:
+        z, basis = guaranteed, "declared" if guaranteed is not None else "none"
+        limit = ratio.ratio_limit_pct(z)
+    warnings = [] if basis != "none" else [
+        "Ratio tolerance: neither a measured nor a guaranteed impedance is known, so only the 0.5 % bound of "
+        "IEC 60076-1 Table 1 applies (its 1/10-of-impedance bound could be tighter)."]
+    clock, clock_warnings = _declared_clock(t)
+    taps = t.taps
+    plate = ratio.Nameplate(t.hv.rated_voltage, t.lv.rated_voltage, taps.winding if taps else None,
+                            taps.step if taps else None, clock, t.phases)
+    readings = tuple(ratio.TapReading(r.tap, values_of(r.hv), values_of(r.lv),
+                                      tuple(math.degrees(a) for a in values_of(r.displacement))
+                                      if r.displacement is not None else None) for r in test.readings)
+    result = ratio.evaluate_ratio(plate, test.winding, readings, limit, z, basis)
+    return result, ratio.ratio_checks(result, override is not None), warnings + clock_warnings
+
+
+def _declared_clock(t: Transformer) -> tuple[int, list[str]]:
+    if t.phases == 1:
+        return 0, []
+    if t.vector_group is None:
+        return 0, ["The nameplate gives no vector group: the phase displacement is checked against clock 0."]
+    return parse_vector_group(t.vector_group).clock, []

@@ -52,6 +52,7 @@ def phase_quantity(unit: str) -> Any:
 PhaseVoltage = phase_quantity("V")
 PhaseCurrent = phase_quantity("A")
 PhaseResistance = phase_quantity("ohm")
+PhaseAngle = phase_quantity("rad")
 
 
 def values_of(value: PhaseValue) -> tuple[float, ...]:

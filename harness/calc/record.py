@@ -17,7 +17,7 @@ from pydantic_core import InitErrorDetails, PydanticCustomError, ValidationError
 from harness.calc import nameplate, plausibility
 from harness.calc.nameplate import ThermalClass
 from harness.calc.chain import MeasurementChain
-from harness.calc.phases import PhaseCurrent, PhaseResistance, PhaseValue, PhaseVoltage, values_of
+from harness.calc.phases import PhaseAngle, PhaseCurrent, PhaseResistance, PhaseValue, PhaseVoltage, values_of
 from harness.common import yamlio
 from harness.common.units import (ApparentPower, Current, Duration, Frequency, Percent, Power, Temperature,
                                   Voltage)
@@ -60,6 +60,27 @@ class Winding(_Model):
     neutral: bool = Field(False, description="three-phase star or zigzag: the neutral is brought out")
 
 
+class Taps(_Model):
+    """A tap range on one winding: tap k gives that winding 1 + k x step/100 of its rated voltage;
+    tap 0 is the principal tap (the rated voltages)."""
+    winding: WindingName = Field(description="the tapped winding")
+    steps: tuple[int, int] = Field(description="lowest and highest tap, e.g. [-2, 2]; 0 (principal) inside")
+    step: Annotated[Percent, AfterValidator(_positive)] = Field(le=10.0, description="voltage step per tap, e.g. 2.5 %")
+
+    @model_validator(mode="after")
+    def _principal_inside(self) -> Taps:
+        lo, hi = self.steps
+        if not -40 <= lo <= 0 <= hi <= 40:
+            raise ValueError(f"steps [{lo}, {hi}]: give [lowest, highest] with the principal tap 0 between "
+                             "them (at most 40 each way)")
+        if abs(lo) * self.step >= 100.0:
+            raise ValueError(f"tap {lo} at {self.step:g} % per step leaves no voltage on the winding")
+        return self
+
+    def positions(self) -> tuple[int, ...]:
+        return tuple(range(self.steps[0], self.steps[1] + 1))
+
+
 class Transformer(_Model):
     rated_power: Annotated[ApparentPower, AfterValidator(_positive)]
     phases: Literal[1, 3]
@@ -84,6 +105,7 @@ class Transformer(_Model):
     thermal_class: ThermalClass | None = Field(None, description="insulation thermal class, degC (IEC 60085)")
     year_of_manufacture: int | None = Field(None, strict=True, description="year the unit was made")
     standard_edition: str | None = Field(None, description="standard and edition, e.g. IEC 60076-1:2011")
+    taps: Taps | None = Field(None, description="the tap range (voltage ratio test on every tap)")
 
     @model_validator(mode="after")
     def _consistent(self) -> Transformer:
@@ -140,6 +162,21 @@ class LoadTest(_Model):
     analyser_ranges: AnalyserRanges | None = None
 
 
+class RatioReading(_Model):
+    """One tap's readings: both windings' voltages (three-phase: line-to-line U-V, V-W, W-U) and
+    the LV voltages' lag behind the HV ones (e.g. '330 deg'; a plain number is radians)."""
+    tap: int = Field(0, description="the tap read (0: principal)")
+    hv: Readings
+    lv: Readings
+    displacement: PhaseAngle | None = Field(None, description="LV lag behind HV, per phase pair")
+
+
+class RatioTest(_Model):
+    """Voltage ratio and phase displacement: one winding fed at a reduced voltage, the other open."""
+    winding: WindingName = Field(description="the fed winding")
+    readings: list[RatioReading] = Field(min_length=1)
+
+
 class Resistance(_Model):
     resistance: Resistances = Field(description="d.c.; three-phase: line-to-line, mean or list of three")
     temperature: TestTemperature
@@ -166,6 +203,7 @@ class Tolerances(_Model):
     total_loss: PositivePercent | None = None
     impedance: PositivePercent | None = None
     no_load_current: PositivePercent | None = None
+    ratio: PositivePercent | None = Field(None, description="voltage ratio, +/- % of the declared ratio, every tap")
 
 
 class LoadBlock(_Model):
@@ -197,6 +235,7 @@ class Record(_Model):
     transformer: Transformer
     no_load: NoLoadTest | None = None
     load: LoadTest | None = None
+    ratio: RatioTest | None = None
     winding_resistance: WindingResistances | None = None
     guarantees: Guarantees | None = None
     tolerances: Tolerances | None = None
@@ -210,7 +249,7 @@ class Record(_Model):
 
     @model_validator(mode="after")
     def _plausible(self) -> Record:
-        _raise(plausibility.record_problems(self) + _chain_problems(self)
+        _raise(plausibility.record_problems(self) + _chain_problems(self) + _ratio_problems(self)
                + nameplate.edition_problems(self.transformer.standard_edition, self.standard))
         return self
 
@@ -226,6 +265,21 @@ def _chain_problems(r: Record) -> list[tuple[tuple[Any, ...], str, Any]]:
 def raise_problems(problems: list[tuple[tuple[Any, ...], str, Any]]) -> None:
     """Raise the (location, reason, value) triples as one located validation error."""
     _raise(problems)
+def _ratio_problems(r: Record) -> list[tuple[tuple[Any, ...], str, Any]]:
+    """Every tap read must lie in the nameplate's range, each once."""
+    if r.ratio is None:
+        return []
+    taps = r.transformer.taps.positions() if r.transformer.taps is not None else (0,)
+    problems, seen = [], set()
+    for k, reading in enumerate(r.ratio.readings):
+        if reading.tap not in taps:
+            problems.append((("ratio", "readings", k, "tap"), f"tap {reading.tap} is not on the nameplate "
+                             f"(taps {taps[0]} to {taps[-1]})" if r.transformer.taps else
+                             "the nameplate has no taps: give transformer.taps or read tap 0", reading.tap))
+        elif reading.tap in seen:
+            problems.append((("ratio", "readings", k, "tap"), f"tap {reading.tap} is read twice", reading.tap))
+        seen.add(reading.tap)
+    return problems
 
 
 def _raise(problems: list[tuple[tuple[Any, ...], str, Any]]) -> None:

@@ -10,12 +10,13 @@ from typing import Any
 from harness.calc.compliance import ComplianceCheck
 from harness.calc.load import LoadResult
 from harness.calc.no_load import NoLoadResult
+from harness.calc.ratio import RatioResult
 from harness.calc.tolerances import Check
 from harness.calc.uncertainty import Budget
 
 CONTRACT_KEYS = ("rated_current_A", "no_load", "load", "equivalent_circuit", "efficiency", "max_efficiency",
                  "regulation", "checks", "warnings", "corrections", "uncertainty", "tolerance_source", "compliance",
-                 "phases")
+                 "phases", "ratio")
 
 
 @dataclass(frozen=True)
@@ -77,6 +78,8 @@ class Results:
     """Checks against the efficiency regulations the record asks for."""
     phases: dict[str, Any] | None = None
     """Three-phase records: the per-phase readings and their spread (see phase_table)."""
+    ratio: RatioResult | None = None
+    """The voltage ratio and phase displacement test, per tap and phase pair (None without one)."""
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready data with exactly the contract keys (non-finite numbers become None)."""
@@ -95,8 +98,21 @@ class Results:
             "tolerance_source": self.tolerance_source,
             "compliance": [c.to_dict() for c in self.compliance],
             "phases": self.phases,
+            "ratio": ratio_dict(self.ratio),
         }
         return _finite(data)
+
+
+def ratio_dict(result: RatioResult | None) -> dict[str, Any] | None:
+    """The ratio section: per tap its declared ratio, limit and source, and per phase pair the
+    measured ratio, deviation, verdict, displacement and clock number."""
+    if result is None:
+        return None
+    data = dataclasses.asdict(result)
+    for tap, obj in zip(data["taps"], result.taps):
+        tap["passed"] = obj.passed
+    data["passed"] = all(t.passed for t in result.taps)
+    return data
 
 
 def _plain(item: Any) -> Any:

@@ -103,6 +103,15 @@ _CHECK_LABELS = {"no_load_loss": "No-load loss", "no_load_current": "No-load cur
                  "total_loss": "Total losses", "impedance": "Short-circuit impedance"}
 
 
+def _ratio(ratio: dict[str, Any]) -> Table:
+    rows = [(f"{t['tap']:+d}" if t["tap"] else "0", p["phase"] or "-", f"{p['declared']:.6g}", f"{p['measured']:.6g}",
+             f"{p['deviation_pct']:+.3f}", f"±{p['limit_pct']:.3g}", p["phase_displacement_deg"], p["clock"],
+             "PASS" if p["passed"] and p["clock_passed"] is not False else "FAIL")
+            for t in ratio["taps"] for p in t["phases"]]
+    return _table(f"Voltage ratio ({str(ratio['fed_winding']).upper()} fed; deviation and limit in %, LV lag in degrees)",
+                  ("tap", "phases", "declared", "measured", "deviation", "limit", "lag", "clock", "verdict"), rows)
+
+
 def _verdict(check: dict[str, Any]) -> str:
     verdict = "PASS" if check["passed"] else "FAIL"
     return f"{verdict} (uncertain)" if check.get("uncertain") else verdict
@@ -154,6 +163,8 @@ def render_results_dict(data: dict[str, Any], console: Console) -> None:
     tables += [t for t, present in ((_efficiency(data), data["efficiency"]),
                                     (_regulation(data), data["regulation"]), (_checks(data), data["checks"]))
                if present]
+    if data.get("ratio"):
+        tables.append(_ratio(data["ratio"]))
     if data.get("compliance"):
         tables.append(_compliance(data))
     if data.get("corrections"):

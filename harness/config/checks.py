@@ -13,7 +13,7 @@ from harness.common.errors import InputError, InputErrors
 from harness.common.yamlio import LoadedYaml
 from harness.config.sequence import Sequence
 from harness.config.station import Limits, Station
-from harness.config.steps import Measure, Prompt, Ramp, Repeat, Resistance, Sweep, TargetStep, Wiring
+from harness.config.steps import Measure, Prompt, Ramp, Ratio, Repeat, Resistance, Sweep, TargetStep, Wiring
 from harness.config.reach import current_per_volt, fixed_increment_volts, magnetising_current, ramp_reach
 from harness.config.targets import parse_target
 
@@ -64,8 +64,9 @@ def resolve_target(sequence: Sequence, step: TargetStep | Sweep, text: str, wind
 
 
 class _Checker:
-    def __init__(self, sequence: Sequence, station: Station, loaded: LoadedYaml):
+    def __init__(self, sequence: Sequence, station: Station, loaded: LoadedYaml, load_profile: Any = None):
         self.sequence, self.station, self.loaded = sequence, station, loaded
+        self.load_profile = load_profile
         self.errors: list[InputError] = []
 
     def fail(self, path: tuple[Any, ...], message: str) -> None:
@@ -95,8 +96,10 @@ class _Checker:
                 wiring = step.wiring
             elif isinstance(step, Repeat):
                 wiring = self.walk(step.steps, here + ("steps",), step_limits, wiring)
-            elif isinstance(step, (Ramp, Sweep)):
+            elif isinstance(step, (Ramp, Sweep, Ratio)):
                 self.targets(step, here, step_limits, wiring)
+                if isinstance(step, Ratio):
+                    self.ratio_setup(step, here, wiring)
             elif isinstance(step, Measure):
                 self.measure_wiring(step, here, wiring)
             elif isinstance(step, Resistance):
@@ -114,13 +117,13 @@ class _Checker:
                 self.fail(path + ("windings", i), f"the station's resistance meter has {count} channel(s) for the "
                                                   f"{winding} winding; a {phases}-phase unit needs {phases}")
 
-    def targets(self, step: Ramp | Sweep, path: tuple[Any, ...], limits: EffectiveLimits, wiring: Wiring | None) -> None:
+    def targets(self, step: Ramp | Sweep | Ratio, path: tuple[Any, ...], limits: EffectiveLimits, wiring: Wiring | None) -> None:
         if wiring is None:
             self.fail(path, f"{step.kind} before any prompt declares the wiring (which winding is fed)")
             return
-        texts = [step.target] if isinstance(step, Ramp) else step.targets
+        texts = step.targets if isinstance(step, Sweep) else [step.target]
         for i, text in enumerate(texts):
-            where = path + (step.quantity,) + (() if isinstance(step, Ramp) else (i,))
+            where = path + (step.quantity,) + ((i,) if isinstance(step, Sweep) else ())
             named = parse_target(text, "V" if step.quantity == "voltage" else "A").winding
             if step.quantity == "voltage" and named not in (None, wiring.fed):
                 self.fail(where, f"a voltage target of the {named.upper()} winding while the {wiring.fed.upper()} "
@@ -192,6 +195,38 @@ class _Checker:
         g = self.sequence.guarantees
         return getattr(g, name, None) if g is not None else None
 
+    def ratio_setup(self, step: Ratio, path: tuple[Any, ...], wiring: Wiring | None) -> None:
+        """The other winding open, the analyser's open-winding channels (one per phase) and taps
+        the nameplate has."""
+        if wiring is not None and wiring.other != "open":
+            self.fail(path, "a ratio step needs the other winding open; declare it in a prompt's wiring before")
+        phases = self.sequence.transformer.phases
+        given = self.station.instruments.analyser.channels.get(OPEN_WINDING)
+        count = 0 if given is None else 1 if isinstance(given, int) else len(given)
+        if count != phases:
+            self.fail(path, f"the station's analyser has {count} channel(s) named '{OPEN_WINDING}' (the other "
+                            f"winding's voltage); a {phases}-phase unit needs {phases}")
+        missing = self.ratio_commands_missing()
+        if missing:
+            self.fail(path, f"the analyser's command profile '{self.station.instruments.analyser.profile}' has no "
+                            f"{', '.join(missing)}: a ratio step reads the open winding's voltages and phase angles")
+        taps = self.sequence.transformer.taps
+        known = taps.positions() if taps is not None else (0,)
+        for i, tap in enumerate(step.taps if isinstance(step.taps, list) else ()):
+            if tap not in known:
+                self.fail(path + ("taps", i), f"tap {tap} is not on the nameplate (taps {known[0]} to {known[-1]})")
+
+    def ratio_commands_missing(self) -> list[str]:
+        """The analyser operations a ratio step needs that its profile lacks (none checked without
+        a profile loader; a profile that does not load is the station check's to report)."""
+        if self.load_profile is None:
+            return []
+        try:
+            commands = self.load_profile(self.station.instruments.analyser.profile, "power_analyser").commands
+        except Exception:  # noqa: BLE001 - reported by the station check, at the station's line
+            return []
+        return [op for op in RATIO_OPERATIONS if getattr(commands, op, None) is None]
+
     def expected_voltage(self, current: float, winding: str) -> float | None:
         impedance = self.guaranteed("impedance")
         if impedance is None:
@@ -205,8 +240,14 @@ class _Checker:
                                         "declare it in a prompt's wiring before")
 
 
-def check(sequence: Sequence, station: Station, loaded: LoadedYaml) -> None:
-    """Raise :class:`InputErrors` listing every problem, or return when the pair is sound."""
-    errors = _Checker(sequence, station, loaded).run()
+OPEN_WINDING = "open_winding"
+RATIO_OPERATIONS = ("set_channel_voltage_range", "voltages", "phase_angle")
+
+
+def check(sequence: Sequence, station: Station, loaded: LoadedYaml, load_profile: Any = None) -> None:
+    """Raise :class:`InputErrors` listing every problem, or return when the pair is sound.
+    ``load_profile`` (``(name, kind) -> profile``, the drivers' loader) lets the check see what the
+    instruments' command profiles offer."""
+    errors = _Checker(sequence, station, loaded, load_profile).run()
     if errors:
         raise InputErrors(errors)

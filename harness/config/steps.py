@@ -88,6 +88,26 @@ class Sweep(OnQuantity):
         return list(self.voltage if self.voltage is not None else self.current or [])
 
 
+class Ratio(TargetStep):
+    """Voltage ratio and phase displacement: the fed winding at a reduced voltage, both windings'
+    voltages read on every tap listed (the tap changer moved at operator prompts, off-circuit)."""
+    kind: Literal["ratio"]
+    voltage: Target | None = Field(None, description="the reduced voltage: '3 %' of the fed winding's rated or '380 V'")
+    tolerance: Percent = Field(1.0, gt=0, le=5, description="how close the measured voltage must come")
+    taps: Literal["all"] | list[Annotated[int, Field(ge=-40, le=40)]] = Field(
+        "all", description="'all' (lowest to highest) or a list of taps, e.g. [0, -2, 2]")
+    readings: int = Field(5, ge=2, le=b.MAX_READINGS, description="readings averaged per tap")
+    interval: Duration = Field(0.5, gt=0, le=b.MAX_INTERVAL_S)
+
+    @model_validator(mode="after")
+    def _voltage_only(self):
+        if self.current is not None or self.voltage is None:
+            raise ValueError("a ratio step takes 'voltage' (the reduced voltage on the fed winding), not 'current'")
+        if isinstance(self.taps, list) and len(set(self.taps)) != len(self.taps):
+            raise ValueError("taps: each tap once")
+        return self
+
+
 class Hold(Step):
     kind: Literal["hold"]
     duration: Duration = Field(gt=0, le=b.MAX_DURATION_S)
@@ -132,7 +152,7 @@ class Repeat(Step):
 
 
 AnyStep = Annotated[
-    Union[Ramp, Measure, Sweep, Hold, Wait, Off, Prompt, Resistance, Temperature, Repeat],
+    Union[Ramp, Measure, Sweep, Ratio, Hold, Wait, Off, Prompt, Resistance, Temperature, Repeat],
     Field(discriminator="kind"),
 ]
 Repeat.model_rebuild()

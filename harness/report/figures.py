@@ -180,6 +180,34 @@ def load_series_figure(series: Sequence[Mapping[str, Any]]) -> str | None:
     return to_svg(fig, "fig-load-series")
 
 
+# --------------------------------------------------------------------------- ratio test
+
+def ratio_figure(ratio: Mapping[str, Any] | None) -> str | None:
+    """Each tap's ratio deviation per phase pair, with the tolerance band of each tap."""
+    taps = [t for t in (ratio or {}).get("taps") or [] if fmt.is_number(t.get("tap"))]
+    if not taps:
+        return None
+    x = [float(t["tap"]) for t in taps]
+    limits = _numbers([t.get("limit_pct") for t in taps])
+    with matplotlib.rc_context(_RC):
+        fig = new_figure(7.0, 3.0)
+        ax = fig.add_subplot()
+        ax.fill_between(x, [-v for v in limits], limits, step="mid", color=LIMIT_COLOUR, alpha=0.08, linewidth=0)
+        ax.step(x, limits, where="mid", color=LIMIT_COLOUR, linewidth=1.0, label="tolerance")
+        ax.step(x, [-v for v in limits], where="mid", color=LIMIT_COLOUR, linewidth=1.0)
+        names = [p.get("phase") or "ratio" for p in taps[0].get("phases") or []]
+        for k, name in enumerate(names):
+            y = _numbers([(t.get("phases") or [{}] * (k + 1))[k].get("deviation_pct") for t in taps])
+            style = _style(k)
+            ax.plot(x, y, label=name, **{**style, "linestyle": "none"})
+        ax.axhline(0.0, color="#000000", linewidth=0.6)
+        ax.set_xticks(x, [("0" if v == 0 else f"{int(v):+d}") for v in x])
+        ax.set_xlabel("tap")
+        ax.set_ylabel("ratio deviation (% of declared)")
+        ax.legend(loc="lower center", bbox_to_anchor=(0.5, 1.0), fontsize=8, ncols=len(names) + 1, frameon=False)
+    return to_svg(fig, "fig-ratio")
+
+
 # --------------------------------------------------------------------------- ramp traces
 
 _TRACE_PANELS = (("u_V", "voltage_V", "voltage (V)"), ("i_A", "current_A", "current (A)"), ("p_W", "power_W", "power (W)"))

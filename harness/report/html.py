@@ -15,7 +15,7 @@ from harness.report import fmt, tables
 from harness.report.banner import banner
 from harness.report.certificate import certificate_context
 from harness.report.bundle import ReportBundle
-from harness.report.figures import circuit_figure, efficiency_figure, excitation_figure, trace_figure
+from harness.report.figures import circuit_figure, efficiency_figure, excitation_figure, ratio_figure, trace_figure
 
 STANDARDS = {"iec": "IEC 60076-1", "ieee": "IEEE C57.12.90"}
 
@@ -73,6 +73,7 @@ def context(bundle: ReportBundle) -> dict[str, Any]:
         "warnings": bundle.all_warnings(), "uncertainty": tables.uncertainty_rows(results.get("uncertainty")),
         "figures": _figures(bundle), "has_sweep": bool(bundle.sweep),
         "cert": certificate_context(bundle, _standard_key(bundle.run, results), nameplate_rows(bundle.unit)),
+        "ratio_rows": tables.ratio_rows(results.get("ratio")), "ratio_note": tables.ratio_note(results.get("ratio")),
     }
 
 
@@ -178,6 +179,7 @@ def _figures(bundle: ReportBundle) -> dict[str, Any]:
         "circuit": _markup(circuit_figure(results.get("equivalent_circuit") or {}, voltages)),
         "efficiency": _markup(efficiency_figure(results.get("efficiency") or [], results.get("max_efficiency"))),
         "excitation": _markup(excitation_figure(bundle.sweep)),
+        "ratio": _markup(ratio_figure(results.get("ratio"))),
         "traces": [(_text(t.get("tag")), _text(t.get("step")), _markup(svg)) for t, svg in traces if svg],
     }
 

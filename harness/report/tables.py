@@ -301,3 +301,39 @@ def phase_rows(phases: Mapping[str, Any] | None) -> list[dict[str, Any]]:
 def phase_notes(phases: Mapping[str, Any] | None) -> list[str]:
     note = ((phases or {}).get("no_load") or {}).get("note")
     return [note] if note else []
+
+
+# --------------------------------------------------------------------------- ratio test
+
+def ratio_rows(ratio: Mapping[str, Any] | None) -> list[dict[str, str]]:
+    """One row per tap and phase pair: declared and measured ratio, deviation against its limit,
+    the LV lag and its clock number, the verdict."""
+    rows: list[dict[str, str]] = []
+    for tap in (ratio or {}).get("taps") or []:
+        for k, phase in enumerate(tap.get("phases") or []):
+            passed = phase.get("passed") and phase.get("clock_passed") is not False
+            rows.append({
+                "tap": _tap_text(tap.get("tap")) if k == 0 else "",
+                "voltage": fmt.num(tap.get("tapped_voltage_V")) if k == 0 else "",
+                "phase": str(phase.get("phase") or "-"), "declared": fmt.num(phase.get("declared"), 6),
+                "measured": fmt.num(phase.get("measured"), 6), "deviation": fmt.fixed(phase.get("deviation_pct"), 3),
+                "limit": "±" + fmt.fixed(phase.get("limit_pct"), 3), "lag": fmt.fixed(phase.get("phase_displacement_deg"), 1),
+                "clock": fmt.num(phase.get("clock")), "verdict": fmt.verdict(passed), "verdict_class": fmt.verdict_class(passed)})
+    return rows
+
+
+def ratio_note(ratio: Mapping[str, Any] | None) -> str:
+    """Where the tolerance came from and what the clock is checked against."""
+    if not ratio:
+        return ""
+    basis = {"measured": "1/10 of the impedance measured in this run", "declared": "1/10 of the guaranteed impedance",
+             "record": "the tolerance the sequence or record gives", "none": "no impedance known: 0.5 % only"}
+    z = ratio.get("impedance_pct")
+    impedance = f" ({fmt.num(z)} %)" if fmt.is_number(z) and ratio.get("impedance_basis") != "record" else ""
+    return (f"{str(ratio.get('fed_winding', '')).upper()} fed, the other winding open. Tolerance: the lower of 0.5 % "
+            f"and {basis.get(str(ratio.get('impedance_basis')), '-')}{impedance} (IEC 60076-1 Table 1); other taps "
+            f"the same. Lag: the LV voltage behind the HV one, degrees; declared clock {ratio.get('declared_clock')}.")
+
+
+def _tap_text(tap: Any) -> str:
+    return "-" if not fmt.is_number(tap) else "0" if tap == 0 else f"{int(tap):+d}"

@@ -109,6 +109,9 @@ class Run:
     readings: list[MeasuredReading] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
     gains: dict[str, float] = field(default_factory=dict)
+    tap: int | None = None  # the tap changer's position once an operator set it (None: not yet known)
+    ratio_readings: list[dict[str, Any]] = field(default_factory=list)
+    """The ratio test per tap: tap, fed winding, HV and LV voltages and the LV lag (rad) per phase pair."""
     _next_temperature_t: float = 0.0
     _next_source_t: float = 0.0
     _ranges: tuple[float, float] = (0.0, 0.0)
@@ -170,12 +173,11 @@ class Run:
         m, limits = self.station.measurement, self.supervisor.limits
         self._set_ranges(limits.voltage / m.vt_ratio, limits.current / m.ct_ratio)
 
-    def fit_ranges(self, sample: Sample) -> None:
+    def fit_ranges(self, sample: Sample, headroom: float = RANGE_HEADROOM) -> None:
         """Before a measure, the smallest ranges with headroom: % of range errors stay small."""
         m = self.station.measurement
         u = max(max(ph.u_rms, ph.u_mean) for ph in sample.phases)  # the highest phase must fit
-        self._set_ranges(RANGE_HEADROOM * u / m.vt_ratio,
-                         RANGE_HEADROOM * max(ph.i_rms for ph in sample.phases) / m.ct_ratio)
+        self._set_ranges(headroom * u / m.vt_ratio, headroom * max(ph.i_rms for ph in sample.phases) / m.ct_ratio)
 
     def use_averaging(self, seconds: float) -> None:
         """The analyser's update interval: short while ramping (the controller sees the source

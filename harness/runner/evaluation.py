@@ -13,7 +13,7 @@ from harness.runner.record import build_record, load_series
 
 def evaluate_run(run: Run) -> tuple[dict[str, Any] | None, dict[str, Any] | None]:
     """The record and its results; (record, None) with a warning when the readings cannot be evaluated."""
-    if not any(r.test in ("no-load", "load-loss") for r in run.readings):
+    if not any(r.test in ("no-load", "load-loss") for r in run.readings) and not run.ratio_readings:
         return None, None
     record = build_record(run)
     try:

@@ -1,17 +1,21 @@
-"""Who changes the connections at a prompt (see harness.runner.seams.Operator)."""
+"""Who makes a change at a prompt — the connections, a tap — with the bay de-energised and
+confirmed (see harness.runner.seams.Operator)."""
 
 from __future__ import annotations
 
 import sys
+from typing import Callable
 
 from drivers.bay_control import BayControl
-from harness.config.steps import Wiring
+
+SimulatedChange = Callable[[BayControl], None]
+"""What the simulated bay's control does for a prompt answered with ``--yes`` (rewire, move the tap)."""
 
 
 class TerminalOperator:
     """The operator at the terminal: the prompt on stderr, the answer on stdin."""
 
-    def connect(self, text: str, wiring: Wiring | None) -> bool:
+    def change(self, text: str, on_simulated_bay: SimulatedChange | None = None) -> bool:
         sys.stderr.write(f"\nOPERATOR: {text}\n  The output is off and confirmed de-energised. Earth the terminals "
                          "before touching them.\n  Type 'done' when finished, anything else to abort: ")
         sys.stderr.flush()
@@ -19,12 +23,12 @@ class TerminalOperator:
 
 
 class AnsweringOperator:
-    """``--yes`` on the simulated bay: every prompt answered, the wiring changed by the bay's control."""
+    """``--yes`` on the simulated bay: every prompt answered, the change made by the bay's control."""
 
     def __init__(self, bay_control: BayControl | None):
         self.bay_control = bay_control
 
-    def connect(self, text: str, wiring: Wiring | None) -> bool:
-        if wiring is not None and self.bay_control is not None:
-            self.bay_control.set_wiring(wiring.fed, wiring.other)
+    def change(self, text: str, on_simulated_bay: SimulatedChange | None = None) -> bool:
+        if on_simulated_bay is not None and self.bay_control is not None:
+            on_simulated_bay(self.bay_control)
         return True

@@ -96,7 +96,7 @@ def prepare(options: RunOptions) -> Prepared:
     expired = calibration_errors(station, st_loaded, today)
     if expired:
         raise InputErrors(expired)
-    check(sequence, station, loaded)
+    check(sequence, station, loaded, load_profile)
     if options.yes and not station.simulated:
         raise InputError("--yes answers prompts only on the simulated bay; a real bay needs its operator",
                          station_file, 1, 1)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from typing import Any
 
 from harness.runner.context import MeasuredReading, Run
@@ -40,6 +41,17 @@ def load_section(r: MeasuredReading) -> dict[str, Any]:
     return section
 
 
+def ratio_section(run: Run) -> dict[str, Any]:
+    """The ratio test: per tap both windings' voltages and the LV lag (rad, the record's unit)."""
+    return {"winding": run.ratio_readings[-1]["fed"], "readings": [
+        {"tap": r["tap"], "hv": _one_or_three(r["hv"]), "lv": _one_or_three(r["lv"]),
+         "displacement": _one_or_three([math.radians(a) for a in r["lag_deg"]])} for r in run.ratio_readings]}
+
+
+def _one_or_three(values: list[float]) -> float | list[float]:
+    return values[0] if len(values) == 1 else values
+
+
 def build_record(run: Run, load: MeasuredReading | None = None) -> dict[str, Any]:
     """The record as plain data (SI numbers); the calculation core validates it. The no-load
     section carries the core temperature: IEEE and the efficiency rules correct the no-load
@@ -53,6 +65,8 @@ def build_record(run: Run, load: MeasuredReading | None = None) -> dict[str, Any
         record["no_load"] = no_load_section(no_load)
     if load:
         record["load"] = load_section(load)
+    if run.ratio_readings:
+        record["ratio"] = ratio_section(run)
     if run.resistances:
         record["winding_resistance"] = {w: {"resistance": ohm, "temperature": t} for w, (ohm, t) in run.resistances.items()}
     if run.station.measurement_chain is not None:

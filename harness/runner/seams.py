@@ -5,11 +5,12 @@ the simulated bay), and tests give their own."""
 
 from __future__ import annotations
 
-from typing import Any, Protocol
+from typing import Any, Callable, Protocol
+
+from drivers.bay_control import BayControl
 
 from harness.common.reading import Sample
 from harness.config.checks import EffectiveLimits
-from harness.config.steps import Wiring
 
 
 class RunStore(Protocol):
@@ -43,8 +44,9 @@ class Display(Protocol):
 
 
 class Operator(Protocol):
-    """Who changes the connections at a prompt, with the bay de-energised and confirmed."""
+    """Who makes a change at a prompt (the connections, a tap), with the bay de-energised and confirmed."""
 
-    def connect(self, text: str, wiring: Wiring | None) -> bool:
-        """Ask for the change; True once it is done, False when the operator declines."""
+    def change(self, text: str, on_simulated_bay: Callable[[BayControl], None] | None = None) -> bool:
+        """Ask for the change; True once it is done, False when the operator declines. On the
+        simulated bay, ``on_simulated_bay`` makes it through the bay's control."""
         ...

@@ -20,7 +20,7 @@ lab: Harness simulated test bay (no hardware)
 simulated: true
 instruments:
   source: {{resource: "{source}", profile: {source_profile}, timeout: 2 s, serial: "{serial}-1"}}
-  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 2 s, serial: "{serial}-2"}}
+  analyser: {{resource: "{analyser}", profile: generic-power-analyser, timeout: 2 s, serial: "{serial}-2"{analyser_channels}}}
   resistance_meter:
     resource: "{resistance_meter}"
     profile: generic-resistance-meter
@@ -80,6 +80,7 @@ def scenario_fields(scenario: Any) -> dict[str, Any]:
                          for w, c in scenario.resistance_meter.channels.items())
     return {
         **deenergised_thresholds(scenario),
+        "analyser_channels": (f", channels: {{open_winding: {_one_or_list(an.open_winding)}}}" if an.open_winding else ""),
         "source_profile": "three-phase-ac-source" if phases == 3 else "generic-ac-source",
         "resistance_channels": "{" + channels + "}",
         "max_voltage": f"{line_voltage:g} V", "max_current": f"{src.max_current:g} A",
@@ -115,6 +116,10 @@ def deenergised_thresholds(scenario: Any) -> dict[str, str]:
             value = min(value, 0.9 * ELV_AC_V)
         out[f"deenergised_{q}"] = f"{value:.3g} {unit}"
     return out
+
+
+def _one_or_list(channels: tuple[int, ...]) -> int | list[int]:
+    return channels[0] if len(channels) == 1 else list(channels)
 
 
 def sim_station_text(resources: dict[str, str] | None = None, scenario: Any = None) -> str:

@@ -20,6 +20,8 @@ def print_outcome(outcome: RunOutcome) -> None:
     console.print(f"\nrun {outcome.run_id}: {_VERDICT[outcome.status]}")
     if outcome.trip:
         console.print(f"  trip: {outcome.trip['text']} (step: {outcome.trip.get('step')})")
+    for sentence in failed_checks(outcome.results):
+        console.print(f"  [bold]failed:[/] {sentence}")
     if outcome.results:
         from harness.calc.table import render_results_dict
         render_results_dict(outcome.results, console)
@@ -31,3 +33,10 @@ def print_outcome(outcome: RunOutcome) -> None:
     if outcome.report:
         console.print(f"  report: {outcome.report}")
     console.print(f"  store:  {outcome.database}")
+
+
+def failed_checks(results: dict | None) -> list[str]:
+    """One sentence per failed check: what, and the check's own note (where and by how much)."""
+    found = [c for c in (results or {}).get("checks", []) + (results or {}).get("compliance", []) if not c.get("passed")]
+    return [f"{str(c.get('quantity', 'check')).replace('_', ' ')} outside its tolerance"
+            + (f": {c['note']}" if c.get("note") else "") for c in found]

@@ -19,6 +19,8 @@ magnitude of I3 = -(I1 + I2) and no power.
 
 from __future__ import annotations
 
+import cmath
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -43,27 +45,48 @@ class ChannelValues:
 
 @dataclass(frozen=True)
 class Element:
-    """True values at one channel's inputs, ahead of any instrument transformer."""
+    """True values at one channel's inputs, ahead of any instrument transformer; ``u_phasor`` the
+    fundamental of the voltage it shows (its phase angle against another channel's)."""
 
     u_rms: float
     u_mean: float
     i_rms: float
     p: float
+    u_phasor: complex = 0j
 
 
-def elements(op: OperatingPoint | ThreePhasePoint, connection: str, channels: int) -> tuple[Element | None, ...]:
-    """What each channel's element sees for the operating point ``op`` (None: not connected)."""
+def elements(op: OperatingPoint | ThreePhasePoint, connection: str, channels: int,
+             open_winding: tuple[int, ...] = ()) -> tuple[Element | None, ...]:
+    """What each channel's element sees for the operating point ``op`` (None: not connected);
+    the ``open_winding`` channels see the other winding's voltage (line-to-line for three-phase)."""
     if isinstance(op, ThreePhasePoint):
         seen = _two_wattmeter(op) if connection == "two-wattmeter" else _three_wattmeter(op)
+        other = tuple(_voltage_only(op.orders, tuple(a - b for a, b in zip(op.other_terminal[k],
+                                                                         op.other_terminal[(k + 1) % 3])))
+                      for k in range(3))
     else:
-        seen = (Element(op.u_rms, op.u_mean, op.i_rms, op.power),)
-    return seen + (None,) * (channels - len(seen))
+        seen = (Element(op.u_rms, op.u_mean, op.i_rms, op.power, _fundamental(op.orders, op.voltage)),)
+        other = (_voltage_only(op.orders, op.other_voltage or tuple(0j for _ in op.orders)),)
+    found: list[Element | None] = list(seen) + [None] * (channels - len(seen))
+    for ch, element in zip(open_winding, other):
+        found[ch - 1] = element
+    return tuple(found)
+
+
+def _fundamental(orders: tuple[int, ...], wave: tuple[complex, ...]) -> complex:
+    return wave[orders.index(1)] if 1 in orders else 0j
+
+
+def _voltage_only(orders: tuple[int, ...], u: tuple[complex, ...]) -> Element:
+    """A voltage input with no current: the open winding's voltage in a ratio test."""
+    return Element(waveform.rms(u), waveform.mean_rectified_scaled(orders, u), 0.0, 0.0, _fundamental(orders, u))
 
 
 def _element(op: ThreePhasePoint, u_shown: tuple[complex, ...], u_element: tuple[complex, ...],
              i: tuple[complex, ...], metered: bool = True) -> Element:
     p = sum((u * c.conjugate()).real for u, c in zip(u_element, i)) if metered else 0.0
-    return Element(waveform.rms(u_shown), waveform.mean_rectified_scaled(op.orders, u_shown), waveform.rms(i), p)
+    return Element(waveform.rms(u_shown), waveform.mean_rectified_scaled(op.orders, u_shown), waveform.rms(i), p,
+                   _fundamental(op.orders, u_shown))
 
 
 def _three_wattmeter(op: ThreePhasePoint) -> tuple[Element, ...]:
@@ -87,10 +110,12 @@ class Analyser:
     def __init__(self, spec: AnalyserSpec, rng: np.random.Generator):
         self.spec = spec
         self.rng = rng
-        self.calibration = {
-            (q, ch): self._draw_calibration(getattr(spec.accuracy, q))
-            for q in QUANTITIES for ch in range(1, spec.channels + 1)
-        }
+        # Channels past the third draw after the first three's: a scenario that adds channels
+        # (the open winding's) keeps the calibration of the ones it had.
+        first = min(spec.channels, 3)
+        self.calibration = {(q, ch): self._draw_calibration(getattr(spec.accuracy, q))
+                            for chs in (range(1, first + 1), range(first + 1, spec.channels + 1))
+                            for q in QUANTITIES for ch in chs}
         self.reset()
 
     def _draw_calibration(self, band: ErrorSpec) -> _Calibration:
@@ -100,13 +125,23 @@ class Analyser:
     def reset(self) -> None:
         self.voltage_range = self.spec.voltage_ranges[-1]
         self.current_range = self.spec.current_ranges[-1]
+        self.channel_voltage_range: dict[int, float] = {}
         self.update_interval = self.spec.update_interval
         self._cache: tuple[int, tuple[ChannelValues, ...]] | None = None
 
     # -- settings
-    def set_voltage_range(self, volts: float) -> None:
-        self.voltage_range = _select(self.spec.voltage_ranges, volts, "V")
+    def set_voltage_range(self, volts: float, channels: list[int] | None = None) -> None:
+        """Every channel's voltage range, or (a channel list) only those channels' ranges."""
+        chosen = _select(self.spec.voltage_ranges, volts, "V")
+        if channels is None:
+            self.voltage_range = chosen
+            self.channel_voltage_range.clear()
+        else:
+            self.channel_voltage_range.update({ch: chosen for ch in channels})
         self._cache = None
+
+    def voltage_range_of(self, ch: int) -> float:
+        return self.channel_voltage_range.get(ch, self.voltage_range)
 
     def set_current_range(self, amps: float) -> None:
         self.current_range = _select(self.spec.current_ranges, amps, "A")
@@ -125,7 +160,7 @@ class Analyser:
     def snapshot(self, index: int, op: OperatingPoint | ThreePhasePoint, freq: float) -> tuple[ChannelValues, ...]:
         """Each channel from its element (``elements``); one not connected reads offset and noise."""
         if self._cache is None or self._cache[0] != index:
-            seen = elements(op, self.spec.connection, self.spec.channels)
+            seen = elements(op, self.spec.connection, self.spec.channels, self.spec.open_winding)
             values = tuple(self._channel(ch, seen[ch - 1], freq) for ch in range(1, self.spec.channels + 1))
             self._cache = (index, values)
         return self._cache[1]
@@ -133,10 +168,10 @@ class Analyser:
     def _channel(self, ch: int, op: Element | None, freq: float) -> ChannelValues:
         vt, ct = self.spec.vt_ratio, self.spec.ct_ratio  # the analyser sees the secondaries
         u, um, i, p = (op.u_rms / vt, op.u_mean / vt, op.i_rms / ct, op.p / (vt * ct)) if op else (0.0, 0.0, 0.0, 0.0)
-        ranges = {"voltage": self.voltage_range, "current": self.current_range,
-                  "power": self.voltage_range * self.current_range}
+        u_range = self.voltage_range_of(ch)
+        ranges = {"voltage": u_range, "current": self.current_range, "power": u_range * self.current_range}
         read = {q: (lambda true, q=q: self._read(q, ch, true, ranges[q])) for q in QUANTITIES}
-        signal = op is not None and u > 0.002 * self.voltage_range
+        signal = op is not None and u > 0.002 * u_range
         return ChannelValues(read["voltage"](u), read["voltage"](um), read["current"](i),
                              read["power"](p), freq if signal else 0.0)
 
@@ -148,6 +183,17 @@ class Analyser:
         sigma = abs(true) * band.reading / 100.0 + range_ * band.range / 100.0
         noise = float(self.rng.normal(0.0, sigma)) if sigma > 0 else 0.0
         return float(true * (1.0 + cal.gain) + cal.offset * range_ + noise)
+
+
+def phase_angle(op: OperatingPoint | ThreePhasePoint, spec: AnalyserSpec, reference: int, channel: int) -> float:
+    """Degrees by which ``channel``'s voltage fundamental leads ``reference``'s, in (-180, 180];
+    the simulated analyser has no phase error. A channel without signal is an execution error."""
+    seen = elements(op, spec.connection, spec.channels, spec.open_winding)
+    a, b = seen[reference - 1], seen[channel - 1]
+    if a is None or b is None or abs(a.u_phasor) < 1e-9 or abs(b.u_phasor) < 1e-9:
+        raise ScpiError(-200, "no voltage on a channel of the phase measurement")
+    angle = math.degrees(cmath.phase(b.u_phasor / a.u_phasor))
+    return 180.0 if angle <= -180.0 else angle
 
 
 def _select(ranges: tuple[float, ...], value: float, unit: str) -> float:

@@ -17,7 +17,7 @@ import numpy as np
 
 from harness.common.clock import Clock
 from harness.common.errors import UsageError
-from harness.sim.analyser import Analyser, ChannelValues
+from harness.sim.analyser import Analyser, ChannelValues, phase_angle
 from harness.sim.faults import THREE_PHASE_ONLY, FaultSpec, FaultState, fault_spec
 from harness.sim.meters import ResistanceMeter, Thermometer
 from harness.sim.scenario import Scenario
@@ -65,6 +65,8 @@ class Bay:
                               ambient + scenario.bay.initial_oil_rise)
         self.wiring = Wiring(scenario.bay.wiring.fed, scenario.bay.wiring.other)
         self.faults = self._fault_states(list(scenario.faults) + [fault_spec(f) for f in faults])
+        self.tap = scenario.bay.tap
+        self._turns_key: tuple | None = None
         self.t = clock.now()
         self.energised_s = 0.0
         self.analyser_queries = 0
@@ -80,6 +82,12 @@ class Bay:
                 if spec.name in THREE_PHASE_ONLY:
                     raise UsageError(f"fault '{spec.name}' needs a three-phase unit; "
                                      f"scenario '{self.scenario.name}' is single-phase")
+        taps = self.scenario.transformer.taps
+        for spec in specs:
+            if spec.name == "wrong-tap" and (taps is None or not taps.steps[0] <= spec.tap <= taps.steps[1]):
+                raise UsageError(f"fault 'wrong-tap' needs tap {spec.tap} on the unit; scenario "
+                                 f"'{self.scenario.name}' has " + (f"taps {taps.steps[0]} to {taps.steps[1]}"
+                                                                  if taps else "no tap changer"))
         return {s.name: FaultState(s) for s in specs}
 
     # ------------------------------------------------------------------ faults
@@ -203,6 +211,7 @@ class Bay:
                          phase("open-link-phase"), phase("dead-source-phase"))
 
     def _solve(self, level: float) -> Point:
+        self._apply_turns()
         if isinstance(self.transformer, ThreePhaseTransformer):
             faults = self._phase_faults()
             emf = three_phase.phase_emfs(self.source.emf(level), self.source.orders, faults.dead_source_phase)
@@ -212,10 +221,27 @@ class Bay:
                      self.source.frequency, self.winding.temperature, self.source_impedance,
                      self._fault_admittance())
 
+    def wired_tap(self) -> int:
+        """The tap whose turns are in circuit: the position set, or the next one up for a tap the
+        wrong-tap fault has wired to the wrong lead."""
+        fault = self.faults.get("wrong-tap")
+        return self.tap + 1 if fault is not None and fault.active and fault.spec.tap == self.tap else self.tap
+
+    def _apply_turns(self) -> tuple:
+        """Put the wired tap and the windings' connection into the model (when they changed)."""
+        wrong = self.fault_active("wrong-vector-group")
+        key = (self.wired_tap(), wrong)
+        if key != self._turns_key:
+            self.transformer.set_turns(key[0], -1.0 if wrong and not self.three_phase else 1.0)
+            if isinstance(self.transformer, ThreePhaseTransformer):
+                self.transformer.connect_for_another_clock(wrong)
+            self._turns_key = key
+        return key
+
     def operating_point(self) -> Point:
         """The steady state now (cached while nothing that matters has changed)."""
         level = self.source.output
-        key = (level, self.source.frequency, self.effective_wiring(), round(self.winding.temperature, 3),
+        key = (level, self._apply_turns(), self.source.frequency, self.effective_wiring(), round(self.winding.temperature, 3),
                self._fault_admittance(), self._phase_faults() if self.three_phase else None)
         if key != self._op_key:
             self._op, self._op_key = self._solve(level), key
@@ -238,6 +264,15 @@ class Bay:
                 self._update_faults()
             values = self.analyser.snapshot(index, op, freq)
             return self._overrange(values) if self._overrange_now() else values
+
+    def analyser_phase(self, reference: int, channel: int) -> float:
+        """The analyser's phase angle between two channels' voltages at its last update."""
+        with self.lock:
+            self.advance()
+            index = self.analyser.update_index(self.t)
+            if self._analyser_op[0] != index:
+                self._capture_analyser(index)
+            return phase_angle(self._analyser_op[1], self.analyser.spec, reference, channel)
 
     def _overrange_now(self) -> bool:
         return self.fault_active("overrange") and self.source.output_on
@@ -309,6 +344,17 @@ class Bay:
             if self.is_live():
                 raise BayConflict("the bay is live; switch the output off before changing connections")
             self.wiring = Wiring(fed or self.wiring.fed, other or self.wiring.other)
+
+    def set_tap(self, tap: int) -> None:
+        """Move the off-circuit tap changer; refused while the bay is live or off the range."""
+        taps = self.scenario.transformer.taps
+        if taps is None or not taps.steps[0] <= tap <= taps.steps[1]:
+            span = f"{taps.steps[0]} to {taps.steps[1]}" if taps else "none: the unit has no tap changer"
+            raise ValueError(f"tap {tap} is not a tap of the unit (taps {span})")
+        with self.lock:
+            if self.is_live():
+                raise BayConflict("the bay is live; switch the output off before moving the off-circuit tap changer")
+            self.tap = tap
 
     def source_command(self, action: str, value: float | bool | None = None) -> None:
         """Apply one source command at ``now`` (the stuck-output fault swallows the unsafe ones)."""

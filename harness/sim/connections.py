@@ -118,6 +118,19 @@ def arrangements(hv: Connection, lv: Connection, clock: int) -> tuple[Arrangemen
                      f"possible: {', '.join(map(str, possible))}")
 
 
+def another_clock(hv: Connection, lv: Connection, clock: int) -> tuple[Arrangement, Arrangement]:
+    """The same connections wired for another clock number, the polarity kept (a delta closed on
+    the other pair of terminals, a zigzag's halves swapped): the wrong-vector-group fault. A star/star
+    unit can only be reversed (six hours on)."""
+    declared = arrangements(hv, lv, clock)[1].polarity
+    for polarity in (declared, -declared):
+        for a_hv in _options(hv, (1,)):
+            for a_lv in _options(lv, (polarity,)):
+                if clock_of(a_hv, a_lv) != clock:
+                    return a_hv, a_lv
+    raise ValueError(f"a {hv}/{lv} unit has no other clock")
+
+
 def vector_group_name(hv: Connection, hv_neutral: bool, lv: Connection, lv_neutral: bool, clock: int) -> str:
     return (LETTERS[hv] + ("N" if hv_neutral else "") + LETTERS[lv].lower()
             + ("n" if lv_neutral else "") + str(clock))

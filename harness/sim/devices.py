@@ -134,8 +134,11 @@ class _AnalyserFace:
         # channel after channel, each p,u,umean,i,f and a status word (0: no overload).
         self.tree.add("FETCh:ARRay", getter=self._array)
         an = bay.analyser
+        # The phase angle between two channels' voltages (our own query): (@reference,channel)
+        # answers the degrees by which the channel's fundamental leads the reference's.
+        self.tree.add("MEASure[:SCALar]:VOLTage:PHASe", getter=self._phase)
         for root in ("SENSe", "INPut"):
-            self.tree.add(f"{root}:VOLTage[:AC]:RANGe[:UPPer]", lambda p: self._set(an.set_voltage_range, p, "V"),
+            self.tree.add(f"{root}:VOLTage[:AC]:RANGe[:UPPer]", self._set_voltage_range,
                           lambda p: no_params(p) or format_number(an.voltage_range))
             self.tree.add(f"{root}:CURRent[:AC]:RANGe[:UPPer]", lambda p: self._set(an.set_current_range, p, "A"),
                           lambda p: no_params(p) or format_number(an.current_range))
@@ -150,6 +153,22 @@ class _AnalyserFace:
         with self.bay.lock:
             self.bay.advance()
             setter(parse_number(one_param(params), unit))
+
+    def _set_voltage_range(self, params: list[str]) -> None:
+        """``RANGe <volts>`` for every channel, ``RANGe <volts>,(@4:6)`` for the channels listed."""
+        if len(params) == 2:
+            channels = parse_channels(params[1], range(1, self.bay.analyser.spec.channels + 1))
+            with self.bay.lock:
+                self.bay.advance()
+                self.bay.analyser.set_voltage_range(parse_number(params[0], "V"), channels)
+            return
+        self._set(self.bay.analyser.set_voltage_range, params, "V")
+
+    def _phase(self, params: list[str]) -> str:
+        pair = parse_channels(one_param(params), range(1, self.bay.analyser.spec.channels + 1))
+        if len(pair) != 2:
+            raise ScpiError(-109, "give (@reference,channel)")
+        return format_number(self.bay.analyser_phase(pair[0], pair[1]))
 
     def _values(self, name: str, params: list[str]) -> str:
         channels = self._channels(params)
@@ -239,8 +258,20 @@ def bay_control_device(bay: Bay) -> Device:
              lambda p: no_params(p) or bay.wiring.fed.upper())
     tree.add("WIRing:OTHer", lambda p: _conflict(lambda: bay.set_wiring(other=_other(one_param(p)))),
              lambda p: no_params(p) or ("SHOR" if bay.wiring.other == "short" else "OPEN"))
+    tree.add("TAP[:POSition]", lambda p: _conflict(lambda: _set_tap(bay, one_param(p))),
+             lambda p: no_params(p) or str(bay.tap))
     tree.add("BAY:TIME", getter=lambda p: no_params(p) or format_number(bay.bay_time()))
     return Device("bay_control", tree)
+
+
+def _set_tap(bay: Bay, text: str) -> None:
+    value = parse_number(text)
+    if value != int(value):
+        raise ScpiError(-224, f"a tap is a whole number, not {text}")
+    try:
+        bay.set_tap(int(value))
+    except ValueError as exc:
+        raise ScpiError(-222, str(exc)) from exc
 
 
 def _other(text: str) -> str:

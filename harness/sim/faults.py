@@ -40,11 +40,16 @@ FAULTS: dict[str, str] = {
                        "are joined, so the currents are unbalanced and one line current is far low",
     "dead-source-phase": "three-phase: one phase of the source gives nothing (by default phase 1, "
                          "U): its emf stays at zero while the other two follow the setpoint",
+    "wrong-tap": "one tap position is wired to the next tap's lead (by default tap +1 gives the turns of "
+                 "tap +2): that tap's ratio is off by one step, the others are right",
+    "wrong-vector-group": "the other winding is connected for another clock number (three-phase: a delta "
+                          "closed on the other terminals or a zigzag the other way round, e.g. Dyn11 "
+                          "as Dyn1; single-phase: reversed polarity)",
 }
 
 FaultName = Literal["shorted-turn", "missing-link", "analyser-silent", "overrange",
                     "stuck-output", "garbage-reply", "dropped-connection", "open-link-phase",
-                    "dead-source-phase"]
+                    "dead-source-phase", "wrong-tap", "wrong-vector-group"]
 Role = Literal["source", "analyser", "resistance_meter", "thermometer", "bay_control"]
 
 # Faults that act on one instrument's link rather than on the physics.
@@ -79,9 +84,12 @@ class FaultSpec(BaseModel):
     instrument: Role = "analyser"
     repeat: int = Field(1, ge=1, le=b.MAX_READINGS, description="garbled replies or dropped connections to cause")
     phase: int = Field(1, ge=1, le=3, description="three-phase: the phase (limb) it acts on, 1=U 2=V 3=W")
+    tap: int = Field(1, ge=-40, le=40, description="wrong-tap: the tap wired to the next tap's lead")
 
     @model_validator(mode="after")
     def _instrument_only_for_link_faults(self) -> "FaultSpec":
+        if self.tap != 1 and self.name != "wrong-tap":
+            raise ValueError(f"'{self.name}' does not act on one tap: drop 'tap'")
         if self.phase != 1 and self.name not in PHASE_FAULTS:
             raise ValueError(f"'{self.name}' does not act on one phase: drop 'phase'")
         if self.name not in LINK_FAULTS and self.instrument != "analyser":
@@ -101,6 +109,8 @@ DEFAULT_TRIGGERS: dict[str, FaultTrigger] = {
     "dropped-connection": FaultTrigger(after_energised=3.0),
     "open-link-phase": FaultTrigger(),
     "dead-source-phase": FaultTrigger(),
+    "wrong-tap": FaultTrigger(),
+    "wrong-vector-group": FaultTrigger(),
 }
 
 

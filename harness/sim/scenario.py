@@ -96,6 +96,23 @@ class ThermalSpec(_Frozen):
     time_constant: Duration = Field(gt=0, le=b.MAX_DURATION_S)
 
 
+class TapSpec(_Frozen):
+    """The tap range: tap k gives the tapped winding 1 + k x step/100 of its rated turns (tap 0
+    the principal tap)."""
+    winding: Literal["hv", "lv"]
+    steps: tuple[int, int] = Field(description="lowest and highest tap, 0 between them")
+    step: Percent = Field(gt=0, le=10)
+
+    @model_validator(mode="after")
+    def _principal_inside(self) -> "TapSpec":
+        if not -40 <= self.steps[0] <= 0 <= self.steps[1] <= 40 or abs(self.steps[0]) * self.step >= 100:
+            raise ValueError("steps: [lowest, highest] with 0 between them, every tap above zero turns")
+        return self
+
+    def factor(self, tap: int) -> float:
+        return 1.0 + tap * self.step / 100.0
+
+
 class TransformerSpec(_Frozen):
     name: str = Field(min_length=1)
     phases: Literal[1, 3] = 1
@@ -113,6 +130,7 @@ class TransformerSpec(_Frozen):
     winding_thermal: ThermalSpec
     oil_thermal: ThermalSpec
     link_resistance: Resistance = Field(gt=0, description="the short-circuit link")
+    taps: TapSpec | None = Field(None, description="the tap changer's range (turns change per tap)")
 
     @model_validator(mode="after")
     def _hv_above_lv(self) -> "TransformerSpec":
@@ -243,6 +261,8 @@ class AnalyserSpec(_Frozen):
     ct_ratio: float = Field(1.0, gt=0, description="current transformer ahead of the analyser: primary/secondary")
     connection: Literal["three-wattmeter", "two-wattmeter"] = Field(
         "three-wattmeter", description="three-phase units: how the measuring elements are connected")
+    open_winding: tuple[int, ...] = Field((), description=(
+        "channels wired to the other winding's voltage (ratio test): one, or three line-to-line U-V, V-W, W-U"))
 
     @model_validator(mode="after")
     def _ranges_ascending(self) -> "AnalyserSpec":
@@ -298,6 +318,7 @@ class BaySpec(_Frozen):
     ambient_temperature: Temperature = 20.0
     initial_winding_rise: float = Field(0.0, ge=0, description="K above ambient at the start")
     initial_oil_rise: float = Field(0.0, ge=0, description="K above ambient at the start")
+    tap: int = Field(0, ge=-40, le=40, description="the tap changer's position at the start")
     wiring: WiringSpec = WiringSpec()
 
 
@@ -331,6 +352,14 @@ class Scenario(_Frozen):
             raise ValueError("resistance_meter.channels: a single-phase unit has one channel per winding")
         if self.transformer.phases == 3 and self.analyser.channels < 3:
             raise ValueError("analyser.channels: a three-phase unit needs three channels")
+        open_ = self.analyser.open_winding
+        if open_ and (len(open_) != self.transformer.phases or min(open_) <= self.transformer.phases
+                      or max(open_) > self.analyser.channels or len(set(open_)) != len(open_)):
+            raise ValueError(f"analyser.open_winding: {self.transformer.phases} distinct channel(s) after the fed "
+                             f"winding's, at most channel {self.analyser.channels}")
+        taps = self.transformer.taps
+        if self.bay.tap != 0 and (taps is None or not taps.steps[0] <= self.bay.tap <= taps.steps[1]):
+            raise ValueError(f"bay.tap {self.bay.tap} is not a tap of the unit")
         if self.transformer.phases == 1:
             for fault in self.faults:
                 if fault.name in THREE_PHASE_ONLY or fault.phase != 1:

@@ -111,6 +111,20 @@ class ThreePhaseTransformer(Transformer):
             ("hv", "lv"), connections.arrangements(spec.connection("hv"), spec.connection("lv"), spec.clock_number)))
         self.turns = {side: connections.coil_voltage(spec.connection(side), spec.winding(side).rated_voltage)
                       for side in ("hv", "lv")}
+        self.declared_arrangement = dict(self.arrangement)
+
+    def connect_for_another_clock(self, wrong: bool) -> None:
+        """``wrong``: the windings connected as the same letters give another clock number (a
+        delta closed the other way, a zigzag wound the other way); else as the nameplate says."""
+        spec = self.spec
+        self.arrangement = dict(self.declared_arrangement)
+        if wrong:
+            self.arrangement = dict(zip(("hv", "lv"), connections.another_clock(
+                spec.connection("hv"), spec.connection("lv"), spec.clock_number)))
+
+    def coil_turns(self, side: str) -> float:
+        """One limb coil's voltage at rated flux, at the present tap."""
+        return self.turns[side] * self.turns_factor[side]
 
     def r_phase(self, side: str, theta: float, phase: int) -> float:
         """D.c. resistance of one winding phase at ``theta`` degC."""
@@ -193,7 +207,7 @@ def _network(tf: ThreePhaseTransformer, wiring: Wiring, h: int, freq_pu: float, 
         a[row, FED + p], a[row, SOURCE_N], a[row, row] = 1.0, -1.0, z_source
     fed, other = wiring.fed, other_side(wiring.fed)
     for side, node0, neutral, first in ((fed, FED, FED_N, I_FED), (other, OTHER, OTHER_N, I_OTHER)):
-        arr, n = tf.arrangement[side], tf.turns[side]
+        arr, n = tf.arrangement[side], tf.coil_turns(side)
         for p in PHASES:
             start, end = arr.ends(p)
             i_row, end_node = first + p, neutral if end is None else node0 + end

@@ -19,6 +19,7 @@ characteristic and thermal nodes, per winding phase and per limb.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 from functools import cached_property
@@ -53,11 +54,12 @@ class OperatingPoint:
     winding_loss: float            # I^2 R (d.c. + additional) of both windings
     core_loss: float
     other_current: float           # rms current in the other winding, its own side
+    other_voltage: tuple[complex, ...] = ()  # the other winding's terminal voltage per harmonic, its own side
 
     @staticmethod
     def zero(orders: tuple[int, ...]) -> "OperatingPoint":
         z = tuple(0j for _ in orders)
-        return OperatingPoint(orders, z, z, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0)
+        return OperatingPoint(orders, z, z, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, z)
 
 
 class Transformer:
@@ -65,7 +67,20 @@ class Transformer:
 
     def __init__(self, spec: TransformerSpec):
         self.spec = spec
+        self.turns_factor = {"hv": 1.0, "lv": 1.0}
+        self.polarity = 1.0
         self.ratio = spec.hv.rated_voltage / spec.lv.rated_voltage
+
+    def set_turns(self, tap: int, polarity: float = 1.0) -> None:
+        """The tapped winding's turns at ``tap`` (taps change turns, nothing else); ``polarity`` -1
+        reverses the other winding's voltage (a single-phase winding connected the wrong way round)."""
+        taps = self.spec.taps
+        self.turns_factor = {"hv": 1.0, "lv": 1.0}
+        if taps is not None:
+            self.turns_factor[taps.winding] = taps.factor(tap)
+        self.polarity = polarity
+        self.ratio = (self.spec.hv.rated_voltage * self.turns_factor["hv"]
+                      / (self.spec.lv.rated_voltage * self.turns_factor["lv"]))
 
     # -- resistances and temperature
     def r_dc(self, side: Side, theta: float) -> float:
@@ -119,7 +134,7 @@ class Transformer:
         e_rms = waveform.rms(e)
         if e_rms <= 0.0:
             return 0.0, 0.0, 0.0
-        u_r, f_r = self.spec.winding(fed).rated_voltage, self.spec.frequency
+        u_r, f_r = self.spec.winding(fed).rated_voltage * self.turns_factor[fed], self.spec.frequency
         freq_pu = freq / f_r
         flux_pu = waveform.mean_rectified_scaled(orders, e) / u_r / freq_pu
         loss = self.core_loss(flux_pu, e_rms / u_r, freq_pu)
@@ -159,7 +174,9 @@ def solve(tf: Transformer, wiring: Wiring, emf: tuple[complex, ...], orders: tup
         v, i, e, i2 = _branch_currents(emf, orders, z1, z2, z_link, g, b, y_fault, zs, freq_pu)
         g, b, loss = tf.shunt(fed, e, orders, freq)
     v, i, e, i2 = _branch_currents(emf, orders, z1, z2, z_link, g, b, y_fault, zs, freq_pu)
-    return _operating_point(orders, v, i, i2, z1, z2, loss, k)
+    op = _operating_point(orders, v, i, i2, z1, z2, loss, k)
+    other = tuple(tf.polarity * (en - i2n * z2n) / math.sqrt(k) for en, i2n, z2n in zip(e, i2, z2))
+    return dataclasses.replace(op, other_voltage=other)
 
 
 def _at_freq(z_rated: complex, h: int, freq_pu: float) -> complex:

@@ -14,6 +14,7 @@ middle limb lower; each winding's phase and line-to-line resistances; the clock 
 
 from __future__ import annotations
 
+import cmath
 import math
 
 from harness.sim import connections, three_phase
@@ -42,9 +43,52 @@ def series_branch(scenario: Scenario, side: str) -> tuple[float, float]:
     return r, x
 
 
+RATIO_TEST_PU = 0.02   # the HV fed at 2 % of its rated voltage for the true ratio
+
+
+def ratio_truth(scenario: Scenario) -> dict | None:
+    """Per tap: the turns ratio (the declared ratio) and the open-circuit HV/LV voltage ratio per
+    phase pair with the LV's lag in degrees, the HV fed at 2 % of rated from an ideal sinusoidal
+    source, the LV open, winding at ambient: the ratio a ratio test reads, with the small drop of
+    the magnetising current in the HV winding's leakage impedance."""
+    spec = scenario.transformer
+    taps = spec.taps
+    positions = range(taps.steps[0], taps.steps[1] + 1) if taps else range(0, 1)
+    rows = {}
+    for tap in positions:
+        hv, lv = _open_circuit_voltages(scenario, tap)
+        factor = taps.factor(tap) if taps else 1.0
+        turns = spec.hv.rated_voltage / spec.lv.rated_voltage * (factor if taps and taps.winding == "hv"
+                                                                    else 1.0 / factor)
+        rows[str(tap)] = {"turns_ratio": turns, "ratio": [abs(a) / abs(b) for a, b in zip(hv, lv)],
+                          "lag_deg": [math.degrees(cmath.phase(a / b)) % 360.0 for a, b in zip(hv, lv)]}
+    return {"fed": "hv", "test_voltage_pu": RATIO_TEST_PU, "tapped_winding": taps.winding if taps else None,
+            "step_pct": taps.step if taps else None, "clock": spec.clock_number if spec.phases == 3 else 0,
+            "taps": rows}
+
+
+def _open_circuit_voltages(scenario: Scenario, tap: int) -> tuple[list[complex], list[complex]]:
+    """Fundamental HV and LV voltages (line-to-line pairs for three-phase) with the HV fed."""
+    spec, theta, ideal = scenario.transformer, scenario.bay.ambient_temperature, SourceImpedance(0.0, 0.0)
+    if spec.phases == 3:
+        tf = three_phase.ThreePhaseTransformer(spec)
+        tf.set_turns(tap)
+        u = RATIO_TEST_PU * spec.hv.rated_voltage / math.sqrt(3.0)
+        op = three_phase.solve(tf, Wiring("hv", "open"), three_phase.phase_emfs((complex(u),), (1,)), (1,),
+                               spec.frequency, theta, ideal)
+        pairs = connections.terminal_pairs()
+        return ([op.line_to_line(a, b)[0] for a, b in pairs],
+                [op.other_terminal[a][0] - op.other_terminal[b][0] for a, b in pairs])
+    tf = Transformer(spec)
+    tf.set_turns(tap)
+    op = solve(tf, Wiring("hv", "open"), (complex(RATIO_TEST_PU * spec.hv.rated_voltage),), (1,), spec.frequency,
+               theta, ideal)
+    return [op.voltage[0]], [op.other_voltage[0]]
+
+
 def truth(scenario: Scenario) -> dict:
     if scenario.transformer.phases == 3:
-        return truth_three_phase(scenario)
+        return {**truth_three_phase(scenario), "ratio": ratio_truth(scenario)}
     spec = scenario.transformer
     tf = Transformer(spec)
     u, i, p = no_load_point(scenario)
@@ -62,6 +106,7 @@ def truth(scenario: Scenario) -> dict:
         "no_load": {"loss_W": p, "current_A": i},
         "load": {"loss_ref_W": i_r ** 2 * r_hv,
                  "impedance_ref_pct": 100.0 * i_r * math.hypot(r_hv, x_hv) / spec.hv.rated_voltage},
+        "ratio": ratio_truth(scenario),
     }
 
 

@@ -54,7 +54,7 @@ def _run():
                        {"u_rms": 0.09, "u_mean": 0.09, "i_rms": 0.0007, "p": 0.08})
     load = _reading("load-loss", "hv", {"u_rms": 262.3, "u_mean": 261.0, "i_rms": 7.21, "p": 687.0},
                     {"u_rms": 0.06, "u_mean": 0.06, "i_rms": 0.002, "p": 0.4}, temperature=22.0)
-    return SimpleNamespace(sequence=sequence, station=station, readings=[no_load, load],
+    return SimpleNamespace(sequence=sequence, station=station, readings=[no_load, load], ratio_readings=[],
                            resistances={"hv": (5.25, 21.0), "lv": (0.0206, 21.0)})
 
 

@@ -66,7 +66,7 @@ def test_the_largest_plausible_values_still_pass(tmp_path: Path) -> None:
         OFF, OFF + "\n  - kind: wait\n    duration: 7 d")
     path = tmp_path / "sequence.yaml"
     path.write_text(text, encoding="utf-8")
-    assert len(prepare(RunOptions(path)).sequence.steps) == 12
+    assert len(prepare(RunOptions(path)).sequence.steps) == 14  # the routine steps (the ratio test included) and the added wait
 
 
 @pytest.mark.parametrize("old,new,words", [

@@ -128,4 +128,4 @@ def test_the_two_wattmeter_analyser_reads_one_element_negative_at_no_load():
     assert min(channels[0].p, channels[1].p) < 0 < max(channels[0].p, channels[1].p)
     assert channels[0].p + channels[1].p == pytest.approx(total, rel=0.02)
     assert abs(channels[2].p) < 0.01 * total          # offset and noise only
-    assert all(ch.u_rms == pytest.approx(420.0, rel=0.01) for ch in channels)
+    assert all(ch.u_rms == pytest.approx(420.0, rel=0.01) for ch in channels[:3])

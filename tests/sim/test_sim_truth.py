@@ -15,6 +15,7 @@ KEYS = {
                            "lv": {"Rc_ohm", "Xm_ohm", "Req_ohm", "Xeq_ohm"}},
     "no_load": {"loss_W", "current_A"},
     "load": {"loss_ref_W", "impedance_ref_pct"},
+    "ratio": {"fed", "test_voltage_pu", "tapped_winding", "step_pct", "clock", "taps"},
 }
 
 

@@ -6,7 +6,8 @@ final ``safe-state``), in bay seconds. The least time of each energised stretch 
 steps ask for and physics allows, with no allowance for settling or control:
 
 - every change of the source voltage at the bay's slew rate: from zero to each ramp's end
-  voltage, and from one sweep point to the next (the voltages the run actually reached);
+  voltage, and from one sweep point to the next (the voltages the run actually reached), and
+  from zero to the ratio step's voltage on each tap;
 - each measuring window the sequence asks for: ``readings`` x ``interval`` of every measure and
   of every sweep point, and every hold's duration;
 - the confirmation of de-energisation: one analyser update after the output is off.
@@ -68,13 +69,21 @@ def bench_sequence(sequence: Path | str, time_scale: float | None = None) -> dic
                         parts["slew_s"] += abs(reached - level) / slew
                         level = reached
                         parts["windows_s"] += step.readings * step.interval
+            elif st["kind"] == "ratio" and step is not None:  # one tap per energised stretch
+                for e in events:
+                    if e["kind"] == "ratio-reading" and begin <= (e["t"] or -1) <= end and _in_step(events, e, st["step_index"]):
+                        reached = float(np.mean(e["data"][e["data"]["fed"]]))
+                        parts["slew_s"] += abs(reached - level) / slew
+                        level = reached
+                        parts["windows_s"] += step.readings * step.interval
             elif st["kind"] == "measure" and step is not None:
                 parts["windows_s"] += step.readings * step.interval
             elif st["kind"] == "hold" and step is not None:
                 parts["windows_s"] += step.duration
             live = min(_step_end(events, start), end) - max(start, begin)
-            by_step[f"{st['step_index'] + 1}: {st['name']}"] = {
-                "bay_s": round(live, 3), "least_s": round(sum(parts.values()) - least_before, 3)}
+            entry = by_step.setdefault(f"{st['step_index'] + 1}: {st['name']}", {"bay_s": 0.0, "least_s": 0.0})
+            entry["bay_s"] = round(entry["bay_s"] + live, 3)  # a step over several stretches (a ratio step's taps)
+            entry["least_s"] = round(entry["least_s"] + sum(parts.values()) - least_before, 3)
         parts["confirmations_s"] += update
     floor = sum(parts.values())
     bay = sum(end - begin for begin, end in stretches)

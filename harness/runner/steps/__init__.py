@@ -47,7 +47,7 @@ def check_registry(registry: dict[str, Executor]) -> None:
 
 
 from harness.runner.steps import (  # noqa: E402,F401  - importing registers the kinds
-    hold, measure, off, prompt, ramp, repeat, resistance, sweep, temperature,
+    hold, measure, off, prompt, ramp, ratio, repeat, resistance, sweep, temperature,
 )
 
 check_registry(REGISTRY)

@@ -39,6 +39,11 @@ NOISE_SHARE = 0.25          # a wanted move below this share of the band is take
 #                             (a low test voltage on a low-impedance unit reads noisily on its range)
 GUARD_STEPS = 2             # voltage steps like the last one looked ahead: the next reading may come late
 GUARD_MIN_RISE = 0.002      # readings closer than this in voltage give no usable exponent (noise)
+# A current below this share of the step's limit sits at the noise floor of a range opened to
+# that limit (a ratio test at a few % of rated voltage draws milliamps): the ratio of two such
+# readings says nothing about the exponent, and the limit is far off (the supervisor still checks
+# every reading).
+GUARD_FLOOR_SHARE = 0.01
 
 
 @dataclass
@@ -191,6 +196,8 @@ def _stop_before_current_limit(run: Run, previous: Sample | None, s: Sample, tar
         return
     i_now, i_before = highest_current(s), highest_current(previous)  # the outer limbs of a three-phase core draw most
     if i_before <= 0 or i_now <= i_before or s.u_mean <= previous.u_mean * (1 + GUARD_MIN_RISE):
+        return
+    if i_now < GUARD_FLOOR_SHARE * run.supervisor.limits.current:
         return
     exponent = math.log(i_now / i_before) / math.log(s.u_mean / previous.u_mean)
     reach = min(s.u_mean * (1 + GUARD_STEPS * (s.u_mean / previous.u_mean - 1)), ceiling)

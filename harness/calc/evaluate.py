@@ -11,7 +11,7 @@ from collections.abc import Sequence
 
 from harness.calc import circuit, compliance, performance, ratio, temperature, uncertainty
 from harness.calc.phases import values_of
-from harness.calc.vector_group import parse_vector_group
+from harness.common.vector_group import parse_vector_group
 from harness.calc.phase_table import phase_table
 from harness.calc.basis import Basis, basis_of
 from harness.calc.corrections import corrected_record

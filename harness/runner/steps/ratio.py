@@ -19,6 +19,7 @@ import numpy as np
 
 from harness.calc.ratio import declared_ratio, tap_factor, tap_name
 from harness.config.checks import OPEN_WINDING
+from harness.config.steps import Ratio
 from harness.runner.context import Run
 from harness.runner.steps import register
 from harness.runner.steps.off import switch_off
@@ -127,7 +128,7 @@ def _record(run: Run, reading: dict[str, Any]) -> None:
 
 
 @register("ratio")
-def execute(step, run: Run) -> None:
+def execute(step: Ratio, run: Run) -> None:
     target = run.target_value(step, step.target)
     taps = taps_of(step, run)
     for index, tap in enumerate(taps):

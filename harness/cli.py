@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import re
 import sys
 from pathlib import Path
 from typing import Any, Callable
@@ -53,6 +54,7 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--time-scale", type=_scale, metavar="X", help="simulated bay speed-up (default 20)")
     run.add_argument("--yes", action="store_true", help="answer prompts (simulated bay only)")
     run.add_argument("--json", action="store_true")
+    _store_option(run)
 
     chk = sub.add_parser("check", help="validate a sequence against a station; nothing is energised")
     chk.add_argument("sequence", type=Path)
@@ -69,9 +71,17 @@ def _parser() -> argparse.ArgumentParser:
 
     rep = sub.add_parser("report", help="rebuild a run's reports from the store")
     rep.add_argument("run", metavar="RUN_ID_OR_DIR")
+    _store_option(rep)
 
-    runs = sub.add_parser("runs", help="list stored runs")
+    runs = sub.add_parser("runs", help="list stored runs (all, or those the filters keep)")
     runs.add_argument("--json", action="store_true")
+    runs.add_argument("--station", metavar="NAME", help="the station's id (HARNESS_STATION_ID) or its file's name")
+    runs.add_argument("--unit", metavar="TEXT", help="units whose serial or name contains TEXT")
+    runs.add_argument("--status", choices=["running", "incomplete", *_FINAL_STATUSES])
+    runs.add_argument("--sequence", metavar="SHA256", help="the sequence's SHA-256 (or its start)")
+    runs.add_argument("--since", type=_date, metavar="DATE", help="started on or after (UTC, YYYY-MM-DD[THH:MM])")
+    runs.add_argument("--until", type=_date, metavar="DATE", help="started on or before (UTC, YYYY-MM-DD[THH:MM])")
+    _store_option(runs)
 
     sch = sub.add_parser("schema", help="JSON Schema for editors")
     sch.add_argument("which", nargs="?", default="sequence", choices=["sequence", "station", "record"])
@@ -90,7 +100,34 @@ def _parser() -> argparse.ArgumentParser:
     bench.add_argument("sequence", nargs="?", type=Path, help="the sequence (bench sequence)")
     bench.add_argument("--samples", type=_count, metavar="N", help="raw samples in the run (bench report)")
     bench.add_argument("--json", action="store_true")
+    _store_option(bench, "the store to measure (bench store): a scratch SQLite store by default")
     return p
+
+
+_FINAL_STATUSES = ("passed", "failed", "tripped", "aborted", "unsafe")  # harness.store.FINAL_STATUSES, not imported
+_DATE = re.compile(r"\d{4}-\d{2}-\d{2}(T\d{2}(:\d{2}(:\d{2})?)?)?")
+
+
+def _date(text: str) -> str:
+    if not _DATE.fullmatch(text.strip()):
+        raise argparse.ArgumentTypeError(f"'{text}' is not a UTC date or time like 2026-12-02 or 2026-12-02T14:30")
+    return text.strip()
+
+
+def _url(text: str) -> str:
+    if not text.strip():
+        raise argparse.ArgumentTypeError("give the store's URL, e.g. sqlite:///runs/harness.sqlite")
+    return text.strip()
+
+
+def _store_option(parser: argparse.ArgumentParser, text: str | None = None) -> None:
+    parser.add_argument("--store", type=_url, metavar="URL", help=text or "the store: sqlite:///PATH or postgresql://USER@HOST/DB "
+                        "(default: HARNESS_STORE, else harness.sqlite in the data folder)")
+
+
+def _open_store(args: argparse.Namespace) -> Any:
+    from harness.store import Store
+    return Store(url=args.store)
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -120,14 +157,13 @@ def cmd_run(args: argparse.Namespace) -> int:
     from harness.runner.run import RunOptions, execute
     from harness.runner.signals import StopSignals
     from harness.runner.summary import print_outcome
-    from harness.store import Store
 
     # At a terminal, a run that stopped shows its outcome at once; its report follows in the background.
     options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes,
                          quiet=args.json, defer_stopped_report=not args.json)
     _check_faults(options)
     from harness.runner.reporting import write_in_background
-    store = Store()
+    store = _open_store(args)
     # From here until the outcome is printed, a stop signal stops only the steps: it can never
     # cut the safe state, the run's record or its report short, nor change a finished run's exit code.
     with StopSignals() as signals:
@@ -191,8 +227,7 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
 
 def cmd_report(args: argparse.Namespace) -> int:
     from harness.runner.reporting import write_run_reports
-    from harness.store import Store
-    store = Store()
+    store = _open_store(args)
     try:
         run_id = store.resolve(Path(args.run).name if Path(args.run).is_dir() else args.run)
         journal = store.journal(run_id)
@@ -207,10 +242,10 @@ def cmd_report(args: argparse.Namespace) -> int:
 
 
 def cmd_runs(args: argparse.Namespace) -> int:
-    from harness.store import Store
-    store = Store()
+    store = _open_store(args)
     try:
-        rows = store.runs()
+        rows = store.runs(station=args.station, unit=args.unit, status=args.status, sequence=args.sequence,
+                          since=args.since, until=args.until)
     finally:
         store.close()
     if args.json:
@@ -219,12 +254,13 @@ def cmd_runs(args: argparse.Namespace) -> int:
     from rich.console import Console
     from rich.table import Table
     table = Table()
-    for column in ("run_id", "status", "exit", "samples", "started (UTC)", "unit"):
+    for column in ("run_id", "status", "exit", "samples", "started (UTC)", "station", "unit"):
         table.add_column(column, no_wrap=True)
     for r in rows:
         started = str(r["started"] or "")[:19].replace("T", " ")
         exit_code = "" if r.get("exit_code") is None else str(r["exit_code"])
-        table.add_row(r["run_id"], r["status"], exit_code, str(r["samples"]), started, str(r.get("unit") or ""))
+        table.add_row(r["run_id"], r["status"], exit_code, str(r["samples"]), started, str(r.get("station_id") or ""),
+                      str(r.get("unit") or ""))
     console = Console()
     if not console.is_terminal:
         console = Console(width=120)  # a pipe or a file: no terminal width to fit
@@ -264,7 +300,9 @@ def cmd_bench(args: argparse.Namespace) -> int:
         raise UsageError(f"bench {args.which} takes no sequence file")
     if args.samples is not None and args.which != "report":
         raise UsageError("--samples is for bench report")
-    figures = run_benchmark(args.which, samples=args.samples, sequence=args.sequence)
+    if args.store is not None and args.which != "store":
+        raise UsageError("--store is for bench store")
+    figures = run_benchmark(args.which, samples=args.samples, sequence=args.sequence, store=args.store)
     if args.json:
         _emit(figures)
     else:

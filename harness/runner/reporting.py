@@ -210,5 +210,5 @@ def write_in_background(store: Any, run_id: str) -> tuple[Path, Any]:
     with open(folder / "report.log", "w", encoding="utf-8") as log:
         process = subprocess.Popen([sys.executable, "-m", "harness.cli", "report", run_id], stdin=subprocess.DEVNULL,
                                    stdout=log, stderr=log, start_new_session=True,
-                                   env={**os.environ, "HARNESS_DATA": str(store.folder)})
+                                   env={**os.environ, "HARNESS_DATA": str(store.folder), "HARNESS_STORE": store.url})
     return folder / "report.html", process

@@ -14,7 +14,7 @@ from store_helpers import RUN_FIELDS, add, begin, committed
 
 from harness.store import AmbiguousRunError, Store, StoreError, UnknownRunError
 from harness.store.paths import new_run_id
-from harness.store.process import process_token
+from harness.store.process import process_token, station_id
 
 # FIPS 180-2, appendix B.1: SHA-256("abc").
 SHA256_ABC = "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
@@ -62,7 +62,8 @@ def test_finish_run_keeps_status_trip_record_and_results(store):
     assert run["record"] == {"no_load": {"power": 160.0}} and run["results"] == {"warnings": []}
     listed = store.runs()
     assert listed == [{"run_id": run_id, "status": "tripped", "samples": 0, "started": run["started"],
-                       "unit": RUN_FIELDS["unit"], "exit_code": 3, "journal": None}]
+                       "unit": RUN_FIELDS["unit"], "exit_code": 3, "station_id": station_id(),
+                       "station_name": RUN_FIELDS["station_name"], "journal": None}]
 
 
 def test_a_finished_run_takes_no_more_samples_or_steps(store):

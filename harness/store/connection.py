@@ -33,6 +33,10 @@ class Connection:
     def _open(self) -> None:
         self._pooled = self._engine.raw_connection()
         self._raw = self._pooled.dbapi_connection
+        # One cursor for the connection's life: no cursor is left for the garbage collector
+        # to finalise in the middle of a commit, where a signal handler's exception would be lost.
+        self._cursor = self._raw.cursor()
+        self._lost = False
         if self.dialect_name == "sqlite":
             self._raw.isolation_level = ""  # the driver begins a transaction before the first write
 
@@ -47,15 +51,35 @@ class Connection:
         return self.run(text, params)
 
     def run(self, text: str, params: Any = ()) -> Any:
-        cursor = self._raw.cursor()
-        cursor.execute(text, params)
-        return cursor
+        self._cursor.execute(text, params)
+        return self._cursor
 
-    def run_many(self, text: str, rows: list[tuple[Any, ...]]) -> int:
-        """``text`` once per row; how many rows it changed."""
-        cursor = self._raw.cursor()
-        cursor.executemany(text, rows)
-        return int(cursor.rowcount)
+    def insert_rows(self, table: Any, text: str, rows: list[tuple[Any, ...]]) -> int:
+        """Insert ``rows`` (all columns of ``table``, in order) with ``text``, the table's one-row
+        INSERT that skips rows already there; how many rows went in.
+
+        SQLite takes them through ``executemany`` (one prepared statement, in-process). PostgreSQL
+        takes them by COPY into a temporary table of the same columns, then one INSERT ... SELECT
+        that skips rows already there: the fast path of the server, and, unlike psycopg's
+        pipelined ``executemany``, nothing a signal handler's exception could leave half-unwound
+        but the connection itself, which :meth:`rollback` then drops.
+        """
+        cursor = self._cursor
+        if self.dialect_name == "sqlite":
+            cursor.executemany(text, rows)
+            return int(cursor.rowcount)
+        incoming = f"incoming_{table.name}"
+        columns = ", ".join(c.name for c in table.columns)
+        cursor.execute(f"CREATE TEMPORARY TABLE IF NOT EXISTS {incoming} "
+                       f"(LIKE {table.name} INCLUDING DEFAULTS) ON COMMIT DELETE ROWS")
+        with cursor.copy(f"COPY {incoming} ({columns}) FROM STDIN") as copy:
+            for row in rows:
+                copy.write_row(row)
+        head = text.partition(" VALUES ")[0]
+        cursor.execute(f"{head} SELECT {columns} FROM {incoming} ON CONFLICT DO NOTHING")
+        added = int(cursor.rowcount)
+        cursor.execute(f"TRUNCATE {incoming}")
+        return added
 
     def dicts(self, statement: Any) -> list[dict[str, Any]]:
         cursor = self.execute(statement)
@@ -69,8 +93,22 @@ class Connection:
         self._raw.commit()
 
     def rollback(self) -> None:
-        if not self._dropped():
+        """Undo the transaction; a connection that cannot (a server gone, a driver left mid-way
+        by an interruption) is dropped, and the next transaction opens a new one."""
+        if self._dropped():
+            return
+        try:
             self._raw.rollback()
+        except self.errors:
+            self._lost = True
+
+    def interrupted(self) -> None:
+        """An exception that is not the database's struck in the middle of a transaction (a
+        signal handler's): a server's driver may be left mid-exchange, so its connection is let
+        go and the next transaction opens a new one. SQLite's driver works in C, between two
+        Python bytecodes, so its rollback is enough."""
+        if self.dialect_name != "sqlite":
+            self._lost = True
 
     def close(self) -> None:
         try:
@@ -79,10 +117,13 @@ class Connection:
             pass  # a server gone away: nothing more to say to it
 
     def _dropped(self) -> bool:
-        return bool(getattr(self._raw, "closed", False)) or getattr(self._raw, "broken", False) is True
+        return self._lost or bool(getattr(self._raw, "closed", False)) or getattr(self._raw, "broken", False) is True
 
     def begin(self) -> None:
         """Before a transaction's first statement: a connection the server dropped is opened anew."""
         if self._dropped():
-            self._pooled.invalidate()
+            try:
+                self._pooled.invalidate()
+            except self.errors:
+                pass  # closing a broken connection may fail too; it is let go all the same
             self._open()

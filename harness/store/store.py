@@ -451,6 +451,8 @@ class Store:
                 self._conn.commit()
             except BaseException as exc:
                 self._roll_back()
+                if not isinstance(exc, (self._errors, StoreError)):
+                    self._conn.interrupted()
                 if isinstance(exc, self._errors):
                     raise StoreError(f"{self.path}: {_reason(exc)}") from exc
                 raise
@@ -472,7 +474,7 @@ class Store:
         batch = self._pending[:]
         for run_id, group in itertools.groupby(batch, key=_RUN_OF_ROW):
             values = [_nan_to_null(row) for row in group] if self._nan_is_a_value else list(group)
-            added = self._conn.run_many(self._insert_sample, values)  # rows already there not counted
+            added = self._conn.insert_rows(_SAMPLES, self._insert_sample, values)  # rows already there not counted
             self._conn.execute(update(_RUNS).where(_RUNS.c.run_id == run_id)
                                .values(samples=_RUNS.c.samples + added))
         return len(batch)

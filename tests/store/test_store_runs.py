@@ -10,7 +10,7 @@ import sys
 import time
 
 import pytest
-from store_helpers import RUN_FIELDS, add, begin, committed
+from store_helpers import RUN_FIELDS, add, begin, committed, execute
 
 from harness.store import AmbiguousRunError, Store, StoreError, UnknownRunError
 from harness.store.paths import new_run_id
@@ -21,14 +21,14 @@ SHA256_ABC = "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
 
 
 @pytest.fixture
-def store(tmp_path):
-    with Store(tmp_path) as opened:
+def store(tmp_path, open_store):
+    with open_store() as opened:
         yield opened
 
 
 def test_a_run_is_committed_as_soon_as_it_begins(store):
     run_id = begin(store)
-    assert committed(store.path, "SELECT status FROM runs WHERE run_id = ?", (run_id,)) == "running"
+    assert committed(store, "SELECT status FROM runs WHERE run_id = ?", (run_id,)) == "running"
 
 
 def test_run_ids_carry_the_utc_start_time_and_sort_by_it(store):
@@ -206,8 +206,8 @@ def test_json_that_cannot_be_kept_is_a_clear_error(store):
         begin(store, simulated="routine")
 
 
-def test_a_closed_store_says_so(tmp_path):
-    store = Store(tmp_path)
+def test_a_closed_store_says_so(tmp_path, open_store):
+    store = open_store()
     store.close()
     store.close()
     store.flush()  # a late signal handler may still call it
@@ -217,20 +217,15 @@ def test_a_closed_store_says_so(tmp_path):
 
 # -- runs whose process is gone --------------------------------------------------------------
 
-def _set(path, sql, params):
-    import sqlite3
-
-    conn = sqlite3.connect(path)
-    with conn:
-        conn.execute(sql, params)
-    conn.close()
+def _set(store, sql, params):
+    execute(store, sql, params)
 
 
 def test_a_running_run_of_a_gone_process_is_listed_incomplete(store):
     run_id = begin(store)
     child = subprocess.Popen([sys.executable, "-c", "pass"])
     child.wait()
-    _set(store.path, "UPDATE runs SET pid = ? WHERE run_id = ?", (child.pid, run_id))
+    _set(store, "UPDATE runs SET pid = ? WHERE run_id = ?", (child.pid, run_id))
     assert store.runs()[0]["status"] == "incomplete" and store.run(run_id)["status"] == "incomplete"
 
 
@@ -242,19 +237,19 @@ def test_a_run_of_this_live_process_is_listed_running(store):
 @pytest.mark.skipif(process_token(os.getpid()) is None, reason="process start times need /proc")
 def test_a_reused_pid_is_not_taken_for_the_run(store):
     run_id = begin(store)
-    _set(store.path, "UPDATE runs SET process_token = 'another-boot:12' WHERE run_id = ?", (run_id,))
+    _set(store, "UPDATE runs SET process_token = 'another-boot:12' WHERE run_id = ?", (run_id,))
     assert store.runs()[0]["status"] == "incomplete"
 
 
 def test_a_run_begun_on_another_host_stays_running(store):
     run_id = begin(store)
-    _set(store.path, "UPDATE runs SET host = 'bay-pc-7', pid = 1 WHERE run_id = ?", (run_id,))
+    _set(store, "UPDATE runs SET host = 'bay-pc-7', pid = 1 WHERE run_id = ?", (run_id,))
     assert store.runs()[0]["status"] == "running"
 
 
-def test_closing_without_finishing_leaves_the_run_incomplete(tmp_path):
-    with Store(tmp_path) as store:
+def test_closing_without_finishing_leaves_the_run_incomplete(tmp_path, open_store):
+    with open_store() as store:
         run_id = begin(store)
         add(store, run_id, 3)
-    with Store(tmp_path) as store:
+    with open_store() as store:
         assert store.runs() == [{**store.runs()[0], "status": "incomplete", "samples": 3}]

@@ -2,8 +2,8 @@
 
 ``HARNESS_TEST_POSTGRES`` names a PostgreSQL database the tests may use (``.ci/run`` starts a
 throwaway server and sets it); each test gets a schema of its own there, dropped afterwards.
-Without it the PostgreSQL cases skip, saying so; under CI (the ``CI`` variable set) a missing
-server is a failure instead, so CI never passes without them.
+Without it the PostgreSQL cases skip, saying so; with ``HARNESS_REQUIRE_POSTGRES`` set (as
+``.ci/run`` sets it) a missing server is a failure instead, so CI never passes without them.
 """
 
 from __future__ import annotations
@@ -23,8 +23,8 @@ POSTGRES_ENV = "HARNESS_TEST_POSTGRES"
 
 def postgres_url() -> str | None:
     url = os.environ.get(POSTGRES_ENV, "").strip()
-    if not url and os.environ.get("CI"):
-        pytest.fail(f"{POSTGRES_ENV} is not set under CI: .ci/run starts the PostgreSQL server the store tests need")
+    if not url and os.environ.get("HARNESS_REQUIRE_POSTGRES"):
+        pytest.fail(f"{POSTGRES_ENV} is not set, and HARNESS_REQUIRE_POSTGRES asks for the PostgreSQL store tests")
     return url or None
 
 

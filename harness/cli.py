@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import re
 import sys
@@ -82,6 +83,11 @@ def _parser() -> argparse.ArgumentParser:
     runs.add_argument("--since", type=_date, metavar="DATE", help="started on or after (UTC, YYYY-MM-DD[THH:MM])")
     runs.add_argument("--until", type=_date, metavar="DATE", help="started on or before (UTC, YYYY-MM-DD[THH:MM])")
     _store_option(runs)
+
+    syn = sub.add_parser("sync", help="replay journals into the store; forward its runs to a lab database (--to)")
+    syn.add_argument("--to", type=_url, metavar="URL", help="the lab database, e.g. postgresql://USER@HOST/DB")
+    syn.add_argument("--json", action="store_true")
+    _store_option(syn)
 
     sch = sub.add_parser("schema", help="JSON Schema for editors")
     sch.add_argument("which", nargs="?", default="sequence", choices=["sequence", "station", "record"])
@@ -272,6 +278,25 @@ def cmd_runs(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_sync(args: argparse.Namespace) -> int:
+    from harness.store import Store
+    from harness.store.sync import sync
+    with contextlib.ExitStack() as stores:
+        source = stores.enter_context(_open_store(args))
+        target = stores.enter_context(Store(source.folder, url=args.to)) if args.to else None
+        if target is not None and target.url == source.url:
+            raise UsageError("--to names the store sync reads from; give the lab database")
+        done = sync(source, target)
+    if args.json:
+        _emit(done)
+        return 0
+    for line in done:
+        samples = "" if line.get("samples") is None else f" ({line['samples']} samples)"
+        print(f"{line['run_id']}: {line['action']}{samples}")
+    print(f"sync: {len(done)} run(s) touched" + (f"; {target.path} is up to date" if target is not None else ""))
+    return 0
+
+
 def cmd_schema(args: argparse.Namespace) -> int:
     from harness.config.schema import schema
     _emit(schema(args.which))
@@ -313,7 +338,7 @@ def cmd_bench(args: argparse.Namespace) -> int:
 
 _COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {
     "run": cmd_run, "check": cmd_check, "evaluate": cmd_evaluate, "report": cmd_report, "runs": cmd_runs,
-    "schema": cmd_schema, "sim": cmd_sim, "bench": cmd_bench,
+    "sync": cmd_sync, "schema": cmd_schema, "sim": cmd_sim, "bench": cmd_bench,
 }
 
 if __name__ == "__main__":

@@ -36,7 +36,7 @@ from sqlalchemy.dialects import postgresql as pg_dialect
 from sqlalchemy.dialects import sqlite as sqlite_dialect
 from sqlalchemy.exc import SQLAlchemyError
 
-from harness.store import database, export, journal, rows, schema
+from harness.store import database, export, journal, rows, schema, transfer
 from harness.store.connection import Connection
 from harness.store.errors import AmbiguousRunError, StoreError, UnknownRunError
 from harness.store.migrate import ensure_schema
@@ -288,6 +288,32 @@ class Store:
             conn.execute(change)
         self._counters.pop(run_id, None)
         self._begun.discard(run_id)
+
+    def replay_journal(self, run_id: str) -> int | None:
+        """Write the run's journal (what this store could not take when it failed) into it, in
+        one transaction, then mark the journal replayed; the samples added (None: no journal).
+        Idempotent: a replay cut short is run again, and nothing is doubled."""
+        path = self.journal(run_id)
+        if path is None:
+            return None
+        entries = journal.read_journal(path)
+        with self._transaction() as conn:
+            _require_run(conn, run_id, running=False)
+            added = transfer.apply_journal(conn, run_id, entries, self._insert_sample)
+        journal.mark_replayed(path)
+        return added
+
+    def copy_run_to(self, target: Store, run_id: str) -> int | None:
+        """Put the run into ``target``, whole, replacing what it held of it; the samples copied
+        (None: the target holds this run as it is here already, and nothing was written)."""
+        run_id = self.resolve(run_id)
+        with self._transaction() as conn:
+            found = transfer.run_rows(conn, run_id)
+        with target._transaction() as conn:
+            there = conn.dicts(select(*(_RUNS.c[n] for n in transfer.SAME_RUN)).where(_RUNS.c.run_id == run_id))
+            if there and there[0] == {n: found["runs"][0][n] for n in transfer.SAME_RUN}:
+                return None
+            return transfer.copy_run(conn, found, self.sample_pages(run_id), target._insert_sample)
 
     # -- reading --------------------------------------------------------------------------------
 

@@ -49,8 +49,8 @@ def test_finished_runs_are_forwarded_whole_and_only_once(tmp_path, open_store):
         done = _finished_run(local)
         running = begin(local)
         add(local, running, 5)
-        assert [(d["run_id"], d["action"]) for d in sync(local, lab)] == [
-            (done, "forwarded"), (running, "still running: left for the next sync")]
+        assert sorted((d["run_id"], d["action"]) for d in sync(local, lab)) == sorted([
+            (done, "forwarded"), (running, "still running: left for the next sync")])
         assert _whole(lab, done) == _whole(local, done)
         assert [r["run_id"] for r in lab.runs()] == [done]
         assert [d["action"] for d in sync(local, lab)] == ["still running: left for the next sync"]

@@ -89,6 +89,12 @@ def _parser() -> argparse.ArgumentParser:
     syn.add_argument("--json", action="store_true")
     _store_option(syn)
 
+    web = sub.add_parser("web", help="read-only web view of the store: runs, a live run, designs across units")
+    web.add_argument("--host", default="127.0.0.1", help="address to listen on (not loopback: needs a token)")
+    web.add_argument("--port", type=int, default=8750)
+    web.add_argument("--token", metavar="TEXT", help="access token (or HARNESS_WEB_TOKEN); needed off loopback")
+    _store_option(web)
+
     sch = sub.add_parser("schema", help="JSON Schema for editors")
     sch.add_argument("which", nargs="?", default="sequence", choices=["sequence", "station", "record"])
 
@@ -297,6 +303,23 @@ def cmd_sync(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_web(args: argparse.Namespace) -> int:
+    from harness.web.server import WebServer
+    with _open_store(args) as store:
+        try:
+            server = WebServer(store, args.host, args.port, args.token)
+        except OSError as exc:
+            raise UsageError(f"harness web: cannot listen on {args.host}:{args.port}: {exc.strerror or exc}") from exc
+        print(f"harness web: {server.address} (read-only; Ctrl-C stops it)", flush=True)
+        try:
+            server.serve_forever()
+        except KeyboardInterrupt:
+            pass
+        finally:
+            server.server_close()
+    return 0
+
+
 def cmd_schema(args: argparse.Namespace) -> int:
     from harness.config.schema import schema
     _emit(schema(args.which))
@@ -338,7 +361,7 @@ def cmd_bench(args: argparse.Namespace) -> int:
 
 _COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {
     "run": cmd_run, "check": cmd_check, "evaluate": cmd_evaluate, "report": cmd_report, "runs": cmd_runs,
-    "sync": cmd_sync, "schema": cmd_schema, "sim": cmd_sim, "bench": cmd_bench,
+    "sync": cmd_sync, "web": cmd_web, "schema": cmd_schema, "sim": cmd_sim, "bench": cmd_bench,
 }
 
 if __name__ == "__main__":

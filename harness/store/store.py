@@ -353,6 +353,14 @@ class Store:
                      instruments=self.instruments(run_id), readings=self.readings(run_id))
         return found
 
+    def results(self) -> list[dict[str, Any]]:
+        """Every finished run's run_id, unit, status, started, station_id, record and results (parsed),
+        oldest first: what a comparison across units needs, in one query."""
+        names = ("run_id", "unit", "status", "started", "station_id", "record", "results")
+        found = self._query(select(*(_RUNS.c[n] for n in names)).where(_RUNS.c.status != "running")
+                            .order_by(_RUNS.c.run_id))
+        return [{**r, "record": rows.from_json(r["record"]), "results": rows.from_json(r["results"])} for r in found]
+
     def resolve(self, run_id_or_prefix: str) -> str:
         """The full id of the one run whose id is, or begins with, the given text."""
         key = run_id_or_prefix.strip() if isinstance(run_id_or_prefix, str) else ""
@@ -397,9 +405,10 @@ class Store:
         return {(r["step_index"], r["channel"]): r["n"] for r in self._query(query)}
 
     def sample_pages(self, run_id: str, columns: Iterable[str] | None = None,
-                     chunk: int = SAMPLE_CHUNK) -> Iterator[list[tuple[Any, ...]]]:
+                     chunk: int = SAMPLE_CHUNK, *, after: int = -1) -> Iterator[list[tuple[Any, ...]]]:
         """The run's raw samples as rows of ``columns`` (all of rows.SAMPLE_COLUMNS by default),
-        ``chunk`` rows at a time in id order, as :meth:`sample_chunks` reads them."""
+        ``chunk`` rows at a time in id order, as :meth:`sample_chunks` reads them; only those
+        whose id is above ``after`` (a live view's next rows)."""
         names = rows.sample_column_names(columns)
         if type(chunk) is not int or chunk < 1:
             raise StoreError(f"a chunk is a whole number of rows >= 1, got {chunk!r}")
@@ -407,7 +416,7 @@ class Store:
         self.flush()
         key = names.index("id") if "id" in names else len(names)
         chosen = [_SAMPLES.c[name] for name in names] + ([] if "id" in names else [_SAMPLES.c.id])
-        last = -1
+        last = rows.index(after + 1, "after (a sample id, or -1)") - 1
         while True:
             query = (select(*chosen).where(_SAMPLES.c.run_id == run_id, _SAMPLES.c.id > last)
                      .order_by(_SAMPLES.c.id).limit(chunk))

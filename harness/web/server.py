@@ -34,6 +34,8 @@ from harness.web import charts, designs
 TOKEN_ENV = "HARNESS_WEB_TOKEN"
 LIVE_ROWS = 2000  # samples per live update at most; the page asks again at once for the rest
 _COOKIE = "harness_token"
+# The step's effective limits, as the runner records them at each step's start (event data).
+LIMIT_KEYS = ("voltage_V", "current_A", "power_W")
 _POLICY = ("default-src 'none'; script-src 'self' 'unsafe-inline'; style-src 'unsafe-inline'; img-src data:; "
            "connect-src 'self'; frame-ancestors 'none'; base-uri 'none'; form-action 'self'")
 _TEMPLATES = jinja2.Environment(loader=jinja2.PackageLoader("harness.web", "templates"),
@@ -97,7 +99,10 @@ class View:
         names = ("id", "t", "channel", "u_rms", "i_rms", "p", "step_index")
         page = next(iter(self.store.sample_pages(run_id, names, LIVE_ROWS, after=after)), [])
         rows = [[None if isinstance(v, float) and not math.isfinite(v) else v for v in row] for row in page]
+        starts = [e for e in self.store.events(run_id) if e["kind"] == "step-start" and isinstance(e["data"], dict)]
+        limits = starts[-1]["data"].get("limits") if starts else None
         return {"run_id": run_id, "status": status, "step": steps[-1] if steps else None,
+                "limits": {k: limits.get(k) for k in LIMIT_KEYS} if isinstance(limits, dict) else None,
                 "samples": rows, "last_id": rows[-1][0] if rows else after, "more": len(rows) == LIVE_ROWS}
 
     def design_list(self) -> str:

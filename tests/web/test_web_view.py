@@ -96,6 +96,7 @@ def test_live_data_gives_the_samples_after_the_last_seen(served):
     first = json.loads(_get(f"{address}runs/{run_id}/live.json?after=-1")[1])
     assert [row[0] for row in first["samples"]] == list(range(30)) and first["last_id"] == 29
     assert first["step"]["name"] == "to rated voltage" and first["status"] == "running"
+    assert first["limits"] is None  # no step-start event with the step's limits yet
     add(store, run_id, 5, start=30)
     later = json.loads(_get(f"{address}runs/{run_id}/live.json?after=29")[1])
     assert [row[0] for row in later["samples"]] == [30, 31, 32, 33, 34]
@@ -150,6 +151,8 @@ def test_the_live_page_draws_the_trace_in_a_real_browser(served, tmp_path):
     store, address = served
     run_id = store.begin_run(**RUN_FIELDS)
     store.begin_step(run_id, 0, "ramp", "to rated voltage")
+    store.add_event(run_id, 0.0, "step-start", "ramp: to rated voltage",
+                    {"step": 0, "limits": {"voltage_V": 500.0, "current_A": 4.0, "power_W": 400.0}})
     add(store, run_id, 40)
     store.flush()
     command = [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
@@ -161,3 +164,5 @@ def test_the_live_page_draws_the_trace_in_a_real_browser(served, tmp_path):
     trace = dom.split('id="trace-u" points="')[1].split('"')[0]
     assert len(trace.split()) == 40  # one point per sample, drawn by the page's own script
     assert 'id="count">40<' in dom and "1: to rated voltage" in dom
+    # add()'s last sample: u_rms 454 V, i_rms 2.1 A, p 160 W -> 9.2 %, 47.5 %, 60.0 % left
+    assert 'id="room-u">9.2 %<' in dom and 'id="room-i">47.5 %<' in dom and 'id="room-p">60.0 %<' in dom

@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from store_helpers import begin
 
-from harness.store import SAMPLE_COLUMNS, Store, StoreError, UnknownRunError, bench_store
+from harness.store import SAMPLE_COLUMNS, StoreError, UnknownRunError, bench_store
 from harness.store.export import EXPORT_NAMES
 
 HAS_PYARROW = importlib.util.find_spec("pyarrow") is not None

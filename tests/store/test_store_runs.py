@@ -12,7 +12,7 @@ import time
 import pytest
 from store_helpers import RUN_FIELDS, add, begin, committed, execute
 
-from harness.store import AmbiguousRunError, Store, StoreError, UnknownRunError
+from harness.store import AmbiguousRunError, StoreError, UnknownRunError
 from harness.store.paths import new_run_id
 from harness.store.process import process_token, station_id
 

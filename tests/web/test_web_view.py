@@ -19,7 +19,7 @@ from harness.web.designs import design_key
 from harness.web.server import WebServer, serve_in_thread
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "store"))
-from store_helpers import RUN_FIELDS, add  # noqa: E402
+from store_helpers import RUN_FIELDS, add
 
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
 PLATE = {"rated_power": 50000.0, "phases": 1, "frequency": 50.0, "hv": {"rated_voltage": 6600.0},

@@ -4,6 +4,8 @@ the migrations build exactly the layout the store's queries are written for, on 
 from __future__ import annotations
 
 import shutil
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -94,3 +96,18 @@ def test_an_older_version_than_any_known_is_refused(tmp_path):
 def test_every_migration_is_numbered_in_order():
     files = sorted(p.name for p in (MIGRATIONS / "versions").glob("*.py"))
     assert [name[:4] for name in files] == [revision(n) for n in range(1, SCHEMA_VERSION + 1)]
+
+
+def test_stations_opening_a_new_store_at_once_create_it_once(store_url, tmp_path):
+    script = ("import sys; from pathlib import Path; sys.path.insert(0, sys.argv[3]); from harness.store import Store; "
+              "s = Store(Path(sys.argv[1]), url=sys.argv[2]); "
+              "print(s.begin_run(unit='u', lab='l', station_name='n', sequence_text='', station_text=None, "
+              "software_version='v')); s.close()")
+    repo = str(Path(__file__).resolve().parents[2])
+    children = [subprocess.Popen([sys.executable, "-c", script, str(tmp_path), store_url, repo],
+                                 stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True) for _ in range(4)]
+    outputs = [child.communicate(timeout=120) for child in children]
+    assert [child.returncode for child in children] == [0] * 4, [err for _, err in outputs]
+    with Store(tmp_path, url=store_url) as store:
+        assert sorted(r["run_id"] for r in store.runs()) == sorted(out.strip() for out, _ in outputs)
+        assert execute(store, "SELECT COUNT(*) FROM meta WHERE key = 'schema_version'") == 1

@@ -53,7 +53,7 @@ def gather(runs: list[dict[str, Any]]) -> dict[str, list[dict[str, Any]]]:
     """Design key -> its units (latest finished run with results per unit), oldest first.
     ``runs``: full runs (``Store.run``), any order."""
     latest: dict[tuple[str, str], dict[str, Any]] = {}
-    for run in sorted(runs, key=lambda r: r["run_id"]):
+    for run in sorted(runs, key=lambda r: (r["started"], r["run_id"])):
         key = design_key(run.get("record"))
         if key is None or not run.get("results") or run.get("status") in ("running", "incomplete"):
             continue

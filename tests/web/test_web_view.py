@@ -123,8 +123,17 @@ def test_off_loopback_a_token_is_required(tmp_path, monkeypatch):
             stop()
 
 
-def test_a_design_gathers_its_units_with_mean_spread_and_control_limits(served):
+def test_a_design_gathers_its_units_with_mean_spread_and_control_limits(served, monkeypatch):
     store, address = served
+    # Run ids one minute apart: the re-test below is the unit's latest run, as on a real bay.
+    minutes = iter(range(100))
+
+    def next_run_id() -> str:
+        i = next(minutes)
+        return f"20261202-{10 + i // 60:02d}{i % 60:02d}00-{i:04x}"
+
+    monkeypatch.setattr("harness.store.store.new_run_id", next_run_id)
+    monkeypatch.setattr("harness.store.rows.utc_now", lambda: "2026-12-02T10:00:00.000+00:00")
     rng = np.random.default_rng(7)
     no_load = list(150.0 + rng.normal(0, 2.0, 24))
     no_load[17] = 185.0  # a core-steel batch gone wrong

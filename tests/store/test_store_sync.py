@@ -128,3 +128,39 @@ def test_sync_on_the_command_line(tmp_path, open_store, store_url, capsys, monke
         assert [r["run_id"] for r in lab.runs()] == [run_id]
     assert main(["sync", "--store", store_url, "--to", store_url]) == 2
     assert "--to names the store sync reads from" in capsys.readouterr().err
+
+
+def test_a_lab_database_connection_lost_mid_run_loses_nothing_and_sync_completes_the_run(postgres_schema, tmp_path):
+    """The server ends the store's connection mid-run (as when it is stopped): the run's writes go
+    to the journal from there (the runner trips on the fault), and sync writes them back once."""
+    import psycopg
+
+    with Store(tmp_path, url=postgres_schema, background_flush=False) as store:
+        run_id = begin(store)
+        recorder = Recorder(store, run_id)
+        recorder.begin_step(run_id, 0, "measure", "no-load")
+        for i in range(20):
+            recorder.add_sample(run_id, 0, 0.1 * i, 0, 415.0 + i, 414.0, 2.1, 160.0, 50.0, 415.0)
+        store.flush()
+        backend = store._conn._raw.info.backend_pid  # the store's own server process
+        with psycopg.connect(postgres_schema, autocommit=True) as admin:
+            assert admin.execute("SELECT pg_terminate_backend(%s)", (backend,)).fetchone()[0] is True
+        faults = 0
+        for i in range(20, 32):
+            try:
+                recorder.add_sample(run_id, 0, 0.1 * i, 0, 415.0 + i, 414.0, 2.1, 160.0, 50.0, 415.0)
+            except StoreFault:
+                faults += 1
+        recorder.add_event(run_id, 3.2, "trip", "store failure")
+        recorder.end_step(run_id, 0, "tripped")
+        recorder.finish_run(run_id, "tripped", 3, {"cause": "store failure"}, None, None)
+        recorder.close()
+        assert recorder.failed and faults <= 1
+        store._pending.clear()  # the process ends here: what the store held is in the journal
+    with Store(tmp_path, url=postgres_schema) as lab:  # the server is back: a station runs sync
+        assert lab.run(run_id)["samples"] == 20 and lab.journal(run_id) is not None
+        assert [d["samples"] for d in sync(lab)] == [12]
+        assert sync(lab) == []
+        run = lab.run(run_id)
+        assert (run["status"], run["samples"]) == ("tripped", 32)
+        assert lab.samples(run_id)["id"].tolist() == list(range(32))

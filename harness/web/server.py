@@ -132,19 +132,19 @@ class _Handler(BaseHTTPRequestHandler):
     server: WebServer
     protocol_version = "HTTP/1.1"
 
-    def do_GET(self) -> None:  # noqa: N802 - the standard library's name
+    def do_GET(self) -> None:  # the standard library's name
         self._serve(body=True)
 
-    def do_HEAD(self) -> None:  # noqa: N802
+    def do_HEAD(self) -> None:
         self._serve(body=False)
 
     def _refuse(self) -> None:
         self._send(HTTPStatus.METHOD_NOT_ALLOWED, "read-only: only GET and HEAD", "text/plain", True,
                    extra={"Allow": "GET, HEAD"})
 
-    do_POST = do_PUT = do_DELETE = do_PATCH = _refuse  # noqa: N815
+    do_POST = do_PUT = do_DELETE = do_PATCH = _refuse
 
-    def log_message(self, format: str, *args: Any) -> None:  # noqa: A002 - the standard library's name
+    def log_message(self, format: str, *args: Any) -> None:  # the standard library's signature
         if self.server.verbose:
             super().log_message(format, *args)
 

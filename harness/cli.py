@@ -3,7 +3,9 @@
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
+import re
 import sys
 from pathlib import Path
 from typing import Any, Callable
@@ -59,6 +61,7 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--yes", action="store_true", help="answer prompts (simulated bay only)")
     run.add_argument("--json", action="store_true")
     run.add_argument("--pdf", action="store_true", help="also print the report to report.pdf (headless Chromium)")
+    _store_option(run)
 
     chk = sub.add_parser("check", help="validate a sequence (or every sequence in a folder) against a station; "
                                        "nothing is energised")
@@ -79,6 +82,7 @@ def _parser() -> argparse.ArgumentParser:
 
     rep = sub.add_parser("report", help="rebuild a run's reports from the store")
     rep.add_argument("run", metavar="RUN_ID_OR_DIR")
+    _store_option(rep)
     rep.add_argument("--pdf", action="store_true", help="also print it to report.pdf (A4, headless Chromium)")
 
     app = sub.add_parser("approve", help="record a check or approval of a finished run (append-only)")
@@ -87,9 +91,28 @@ def _parser() -> argparse.ArgumentParser:
     app.add_argument("--role", required=True, metavar="ROLE", help="'checked' or 'approved' fill the report's sign-off rows (only "
                      "'approved' lifts its NOT YET APPROVED mark); any other role is listed as given")
     app.add_argument("--note", metavar="TEXT")
+    _store_option(app)
 
-    runs = sub.add_parser("runs", help="list stored runs")
+    runs = sub.add_parser("runs", help="list stored runs (all, or those the filters keep)")
     runs.add_argument("--json", action="store_true")
+    runs.add_argument("--station", metavar="NAME", help="the station's id (HARNESS_STATION_ID) or its file's name")
+    runs.add_argument("--unit", metavar="TEXT", help="units whose serial or name contains TEXT")
+    runs.add_argument("--status", choices=["running", "incomplete", *_FINAL_STATUSES])
+    runs.add_argument("--sequence", metavar="SHA256", help="the sequence's SHA-256 (or its start)")
+    runs.add_argument("--since", type=_date, metavar="DATE", help="started on or after (UTC, YYYY-MM-DD[THH:MM])")
+    runs.add_argument("--until", type=_date, metavar="DATE", help="started on or before (UTC, YYYY-MM-DD[THH:MM])")
+    _store_option(runs)
+
+    syn = sub.add_parser("sync", help="replay journals into the store; forward its runs to a lab database (--to)")
+    syn.add_argument("--to", type=_url, metavar="URL", help="the lab database, e.g. postgresql://USER@HOST/DB")
+    syn.add_argument("--json", action="store_true")
+    _store_option(syn)
+
+    web = sub.add_parser("web", help="read-only web view of the store: runs, a live run, designs across units")
+    web.add_argument("--host", default="127.0.0.1", help="address to listen on (not loopback: needs a token)")
+    web.add_argument("--port", type=int, default=8750)
+    web.add_argument("--token", metavar="TEXT", help="access token (or HARNESS_WEB_TOKEN); needed off loopback")
+    _store_option(web)
 
     sch = sub.add_parser("schema", help="JSON Schema for editors")
     sch.add_argument("which", nargs="?", default="sequence", choices=["sequence", "station", "record"])
@@ -114,7 +137,34 @@ def _parser() -> argparse.ArgumentParser:
     bench.add_argument("sequence", nargs="?", type=Path, help="the sequence (bench sequence)")
     bench.add_argument("--samples", type=_count, metavar="N", help="raw samples in the run (bench report)")
     bench.add_argument("--json", action="store_true")
+    _store_option(bench, "the store to measure (bench store): a scratch SQLite store by default")
     return p
+
+
+_FINAL_STATUSES = ("passed", "failed", "tripped", "aborted", "unsafe")  # harness.store.FINAL_STATUSES, not imported
+_DATE = re.compile(r"\d{4}-\d{2}-\d{2}(T\d{2}(:\d{2}(:\d{2})?)?)?")
+
+
+def _date(text: str) -> str:
+    if not _DATE.fullmatch(text.strip()):
+        raise argparse.ArgumentTypeError(f"'{text}' is not a UTC date or time like 2026-12-02 or 2026-12-02T14:30")
+    return text.strip()
+
+
+def _url(text: str) -> str:
+    if not text.strip():
+        raise argparse.ArgumentTypeError("give the store's URL, e.g. sqlite:///runs/harness.sqlite")
+    return text.strip()
+
+
+def _store_option(parser: argparse.ArgumentParser, text: str | None = None) -> None:
+    parser.add_argument("--store", type=_url, metavar="URL", help=text or "the store: sqlite:///PATH or postgresql://USER@HOST/DB "
+                        "(default: HARNESS_STORE, else harness.sqlite in the data folder)")
+
+
+def _open_store(args: argparse.Namespace) -> Any:
+    from harness.store import Store
+    return Store(url=args.store)
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -144,7 +194,6 @@ def cmd_run(args: argparse.Namespace) -> int:
     from harness.runner.run import RunOptions, execute
     from harness.runner.signals import StopSignals
     from harness.runner.summary import print_outcome
-    from harness.store import Store
 
     # At a terminal, a run that stopped shows its outcome at once; its report follows in the background.
     options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes,
@@ -155,7 +204,7 @@ def cmd_run(args: argparse.Namespace) -> int:
         find_chromium()  # no browser: say so before anything is begun
     _check_faults(options)
     from harness.runner.reporting import write_in_background
-    store = Store()
+    store = _open_store(args)
     # From here until the outcome is printed, a stop signal stops only the steps: it can never
     # cut the safe state, the run's record or its report short, nor change a finished run's exit code.
     with StopSignals() as signals:
@@ -269,8 +318,7 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
 
 def cmd_report(args: argparse.Namespace) -> int:
     from harness.runner.reporting import write_run_reports
-    from harness.store import Store
-    store = Store()
+    store = _open_store(args)
     try:
         run_id = store.resolve(Path(args.run).name if Path(args.run).is_dir() else args.run)
         journal = store.journal(run_id)
@@ -288,8 +336,7 @@ def cmd_report(args: argparse.Namespace) -> int:
 
 
 def cmd_approve(args: argparse.Namespace) -> int:
-    from harness.store import Store
-    store = Store()
+    store = _open_store(args)
     try:
         run_id = store.resolve(args.run)
         row = store.approve(run_id, name=args.by, role=args.role, note=args.note)
@@ -301,10 +348,10 @@ def cmd_approve(args: argparse.Namespace) -> int:
 
 
 def cmd_runs(args: argparse.Namespace) -> int:
-    from harness.store import Store
-    store = Store()
+    store = _open_store(args)
     try:
-        rows = store.runs()
+        rows = store.runs(station=args.station, unit=args.unit, status=args.status, sequence=args.sequence,
+                          since=args.since, until=args.until)
     finally:
         store.close()
     if args.json:
@@ -313,12 +360,13 @@ def cmd_runs(args: argparse.Namespace) -> int:
     from rich.console import Console
     from rich.table import Table
     table = Table()
-    for column in ("run_id", "status", "exit", "samples", "started (UTC)", "unit"):
+    for column in ("run_id", "status", "exit", "samples", "started (UTC)", "station", "unit"):
         table.add_column(column, no_wrap=True)
     for r in rows:
         started = str(r["started"] or "")[:19].replace("T", " ")
         exit_code = "" if r.get("exit_code") is None else str(r["exit_code"])
-        table.add_row(r["run_id"], r["status"], exit_code, str(r["samples"]), started, str(r.get("unit") or ""))
+        table.add_row(r["run_id"], r["status"], exit_code, str(r["samples"]), started, str(r.get("station_id") or ""),
+                      str(r.get("unit") or ""))
     console = Console()
     if not console.is_terminal:
         console = Console(width=120)  # a pipe or a file: no terminal width to fit
@@ -327,6 +375,42 @@ def cmd_runs(args: argparse.Namespace) -> int:
         if r.get("journal"):
             console.print(f"run {r['run_id']}: the store failed during this run; what it could not take "
                           f"is in {r['journal']}", soft_wrap=True)
+    return 0
+
+
+def cmd_sync(args: argparse.Namespace) -> int:
+    from harness.store import Store
+    from harness.store.sync import sync
+    with contextlib.ExitStack() as stores:
+        source = stores.enter_context(_open_store(args))
+        target = stores.enter_context(Store(source.folder, url=args.to)) if args.to else None
+        if target is not None and target.url == source.url:
+            raise UsageError("--to names the store sync reads from; give the lab database")
+        done = sync(source, target)
+    if args.json:
+        _emit(done)
+        return 0
+    for line in done:
+        samples = "" if line.get("samples") is None else f" ({line['samples']} samples)"
+        print(f"{line['run_id']}: {line['action']}{samples}")
+    print(f"sync: {len(done)} run(s) touched" + (f"; {target.path} is up to date" if target is not None else ""))
+    return 0
+
+
+def cmd_web(args: argparse.Namespace) -> int:
+    from harness.web.server import WebServer
+    with _open_store(args) as store:
+        try:
+            server = WebServer(store, args.host, args.port, args.token)
+        except OSError as exc:
+            raise UsageError(f"harness web: cannot listen on {args.host}:{args.port}: {exc.strerror or exc}") from exc
+        print(f"harness web: {server.address} (read-only; Ctrl-C stops it)", flush=True)
+        try:
+            server.serve_forever()
+        except KeyboardInterrupt:
+            pass
+        finally:
+            server.server_close()
     return 0
 
 
@@ -383,7 +467,9 @@ def cmd_bench(args: argparse.Namespace) -> int:
         raise UsageError(f"bench {args.which} takes no sequence file")
     if args.samples is not None and args.which != "report":
         raise UsageError("--samples is for bench report")
-    figures = run_benchmark(args.which, samples=args.samples, sequence=args.sequence)
+    if args.store is not None and args.which != "store":
+        raise UsageError("--store is for bench store")
+    figures = run_benchmark(args.which, samples=args.samples, sequence=args.sequence, store=args.store)
     if args.json:
         _emit(figures)
     else:
@@ -393,8 +479,8 @@ def cmd_bench(args: argparse.Namespace) -> int:
 
 
 _COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {
-    "run": cmd_run, "check": cmd_check, "evaluate": cmd_evaluate, "report": cmd_report, "approve": cmd_approve, "runs": cmd_runs,
-    "schema": cmd_schema, "sim": cmd_sim, "bench": cmd_bench,
+    "run": cmd_run, "check": cmd_check, "evaluate": cmd_evaluate, "report": cmd_report, "approve": cmd_approve,
+    "runs": cmd_runs, "sync": cmd_sync, "web": cmd_web, "schema": cmd_schema, "sim": cmd_sim, "bench": cmd_bench,
 }
 
 if __name__ == "__main__":

@@ -12,10 +12,13 @@ run is closed (events, the flush, the run's end) never raise: they are journalle
 from __future__ import annotations
 
 import time
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from harness.safety import Trip
 from harness.store.journal import SAMPLE_FIELDS, Journal
+
+if TYPE_CHECKING:
+    from harness.store.protocol import RunStore
 
 
 class StoreFault(Trip):
@@ -25,7 +28,7 @@ class StoreFault(Trip):
 class Recorder:
     """Stands in for the store during one run (same method signatures as :class:`Store`)."""
 
-    def __init__(self, store: Any, run_id: str):
+    def __init__(self, store: RunStore, run_id: str):
         self.store = store
         self.run_id = run_id
         self.failure: str | None = None

@@ -6,7 +6,7 @@ import contextlib
 import datetime as dt
 import importlib.util
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import yaml
@@ -14,11 +14,14 @@ import yaml
 from harness.report import ReportBundle, write_reports
 from harness.report.decimate import TraceThinner
 
+if TYPE_CHECKING:
+    from harness.store.protocol import RunStore
+
 TRACE_KINDS = ("ramp", "sweep", "hold", "measure", "wait")
 _TRACE_KEYS = ("u_rms", "i_rms", "p")
 
 
-def write_run_reports(store: Any, run_id: str) -> Path:
+def write_run_reports(store: RunStore, run_id: str) -> Path:
     """Write report.html, results.json and samples.csv (and samples.parquet when pyarrow is
     installed) into the run's folder; the report's path.
 
@@ -46,7 +49,7 @@ def write_run_reports(store: Any, run_id: str) -> Path:
     return Path(paths["html"])
 
 
-def run_bundle(store: Any, run_id: str, row: dict[str, Any] | None = None,
+def run_bundle(store: RunStore, run_id: str, row: dict[str, Any] | None = None,
                thinners: dict[tuple[int, int], TraceThinner] | None = None) -> ReportBundle:
     """The report's content; the traces from ``thinners`` already fed, or read from the store."""
     row = row or store.run(run_id)
@@ -220,7 +223,7 @@ def write_evaluation_report(path: Path, record: Any, results: Any, html: Path) -
     return html
 
 
-def write_in_background(store: Any, run_id: str, pdf: bool = False) -> tuple[Path, Any]:
+def write_in_background(store: RunStore, run_id: str, pdf: bool = False) -> tuple[Path, Any]:
     """Start ``harness report RUN_ID`` as a process of its own, detached from the terminal; where
     its report will be, and the process.
 
@@ -239,5 +242,5 @@ def write_in_background(store: Any, run_id: str, pdf: bool = False) -> tuple[Pat
         command = [sys.executable, "-m", "harness.cli", "report", run_id, *(["--pdf"] if pdf else [])]
         process = subprocess.Popen(command, stdin=subprocess.DEVNULL,
                                    stdout=log, stderr=log, start_new_session=True,
-                                   env={**os.environ, "HARNESS_DATA": str(store.folder)})
+                                   env={**os.environ, "HARNESS_DATA": str(store.folder), "HARNESS_STORE": store.url})
     return folder / "report.html", process

@@ -10,7 +10,7 @@ import contextlib
 import traceback
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Iterator
+from typing import TYPE_CHECKING, Any, Iterator
 
 from drivers.errors import InstrumentError, InstrumentReportedError
 from harness import __version__
@@ -28,6 +28,9 @@ from harness.runner.sequencer import run_steps
 from harness.runner.steps.off import NotConfirmed
 from harness.runner.steps.prompt import OperatorAbort
 from harness.safety import SafeOutcome, Trip
+
+if TYPE_CHECKING:
+    from harness.store.protocol import RunStore
 
 EXIT = {"passed": 0, "failed": 1, "tripped": 3, "aborted": 4, "unsafe": 5}
 STOPPED = ("tripped", "aborted", "unsafe")
@@ -66,7 +69,7 @@ class RunOutcome:
         return dict(self.__dict__)
 
 
-def execute(options: RunOptions, store: Any, signals: StopSignals | None = None) -> RunOutcome:
+def execute(options: RunOptions, store: RunStore, signals: StopSignals | None = None) -> RunOutcome:
     """Run a sequence. Ctrl-C and SIGTERM stop the steps and are held everywhere else; give
     ``signals`` to hold them also while the caller prints the outcome."""
     with contextlib.ExitStack() as stack:

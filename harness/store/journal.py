@@ -33,6 +33,22 @@ def find_journal(run_id: str, data_folder: Path) -> Path | None:
     return None
 
 
+def mark_replayed(path: Path) -> Path:
+    """Set a journal aside once the store holds what it held (``harness sync``): kept, not found."""
+    done = path.with_name(path.name + ".replayed")
+    path.replace(done)
+    return done
+
+
+def journals(data_folder: Path) -> list[tuple[str, Path]]:
+    """(run id, path) of every journal not yet replayed, in the data folder and the temp folder."""
+    found = {}
+    for folder in (Path(tempfile.gettempdir()), data_folder):
+        for path in sorted(folder.glob(journal_name("*"))):
+            found[path.name[len(journal_name("")) - len(".jsonl"):-len(".jsonl")]] = path
+    return sorted(found.items())
+
+
 def read_journal(path: Path) -> list[dict[str, Any]]:
     """The journal's entries; a last line cut short by a crash is left out."""
     entries = []

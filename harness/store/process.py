@@ -17,8 +17,16 @@ _STILL_ACTIVE = 259  # Windows exit code of a live process
 _ERROR_ACCESS_DENIED = 5
 
 
+STATION_ENV = "HARNESS_STATION_ID"
+
+
 def host_name() -> str:
     return socket.gethostname()
+
+
+def station_id() -> str:
+    """The station's identity on its runs: ``HARNESS_STATION_ID``, else the computer's host name."""
+    return os.environ.get(STATION_ENV, "").strip() or host_name()
 
 
 def _proc_stat(pid: int) -> list[str] | None:

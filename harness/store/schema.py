@@ -1,199 +1,153 @@
-"""The database layout and opening it: WAL journal, full sync, foreign keys, version check.
+"""The database layout, one for every back end (SQLAlchemy Core), and its version.
 
 Times: ``runs`` and ``steps`` keep ISO 8601 UTC text (read by people); ``samples`` and
-``events`` keep wall time as Unix seconds (REAL, cheap on the hot path) beside ``t``, the
-bay time in seconds of the shared clock. Quantities are SI (V, A, W, Hz). SQLite stores a
-not-a-number as NULL, so a NaN reading reads back as NaN in arrays and None in dicts.
+``events`` keep wall time as Unix seconds (a float, cheap on the hot path) beside ``t``, the
+bay time in seconds of the shared clock. Quantities are SI (V, A, W, Hz). A not-a-number is
+kept as NULL on every back end (SQLite does so itself), so a NaN reading reads back as NaN in
+arrays and None in dicts.
+
+The tables here are the newest layout; a store written by an older harness is brought up to
+it by the ordered migrations in ``harness/store/migrations/versions`` (see
+:mod:`harness.store.migrate`). A change of layout is a new migration and a change here, in the
+same commit, and ``SCHEMA_VERSION`` is the number of the newest migration.
 """
 
 from __future__ import annotations
 
-import sqlite3
-from pathlib import Path
+from sqlalchemy import (CheckConstraint, Column, Float, ForeignKey, Index, Integer, MetaData, PrimaryKeyConstraint,
+                        Table, Text)
 
-from harness.store.errors import StoreError
-
-SCHEMA_VERSION = 2
-"""1: runs, steps, samples, events, instruments, readings. 2: adds ``approvals`` (append-only
-sign-off rows of a finished run); a version-1 store gains the table when it is opened."""
+SCHEMA_VERSION = 3
 APPLICATION = "transformer-test-harness"
-BUSY_TIMEOUT_S = 10.0
+STATUSES = ("running", "passed", "failed", "tripped", "aborted", "unsafe")
 
-# Schema version 2. Append-only: who checked or approved a finished run, when, and the SHA-256 of
-# the results text they approved; the triggers refuse any change or removal of a row.
-APPROVALS_TABLE = """CREATE TABLE IF NOT EXISTS approvals (
-        id INTEGER PRIMARY KEY,
-        run_id TEXT NOT NULL REFERENCES runs(run_id),
-        approved TEXT NOT NULL,
-        name TEXT NOT NULL,
-        role TEXT NOT NULL,
-        note TEXT,
-        results_sha256 TEXT NOT NULL)"""
-APPROVALS_APPEND_ONLY = (
-    "CREATE TRIGGER IF NOT EXISTS approvals_no_update BEFORE UPDATE ON approvals "
-    "BEGIN SELECT RAISE(ABORT, 'approvals are append-only'); END",
-    "CREATE TRIGGER IF NOT EXISTS approvals_no_delete BEFORE DELETE ON approvals "
-    "BEGIN SELECT RAISE(ABORT, 'approvals are append-only'); END",
+metadata = MetaData()
+
+
+def _run_ref() -> Column:
+    return Column("run_id", Text, ForeignKey("runs.run_id"), nullable=False)
+
+
+meta = Table("meta", metadata,
+             Column("key", Text, primary_key=True),
+             Column("value", Text, nullable=False))
+
+runs = Table(
+    "runs", metadata,
+    Column("run_id", Text, primary_key=True),
+    Column("status", Text, CheckConstraint(f"status IN ({','.join(repr(s) for s in STATUSES)})"), nullable=False),
+    Column("exit_code", Integer),
+    Column("started", Text, nullable=False),
+    Column("finished", Text),
+    Column("pid", Integer),
+    Column("host", Text),
+    Column("process_token", Text),
+    Column("unit", Text, nullable=False),
+    Column("lab", Text, nullable=False),
+    Column("station_name", Text, nullable=False),
+    Column("sequence_text", Text, nullable=False),
+    Column("sequence_sha256", Text, nullable=False),
+    Column("station_text", Text),
+    Column("station_sha256", Text),
+    Column("software_version", Text, nullable=False),
+    Column("simulated", Text),
+    Column("samples", Integer, nullable=False, server_default="0"),
+    Column("trip", Text),
+    Column("record", Text),
+    Column("results", Text),
+    # Schema version 2: the identity of the station (the bay's computer) that ran it.
+    Column("station_id", Text),
+)
+Index("runs_by_station", runs.c.station_id, runs.c.started)
+Index("runs_by_unit", runs.c.unit)
+
+steps = Table(
+    "steps", metadata,
+    _run_ref(),
+    Column("step_index", Integer, nullable=False),
+    Column("kind", Text, nullable=False),
+    Column("name", Text, nullable=False),
+    Column("started", Text, nullable=False),
+    Column("finished", Text),
+    Column("status", Text),
+    PrimaryKeyConstraint("run_id", "step_index"),
+    sqlite_with_rowid=False,
 )
 
-TABLES = (
-    "CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
-    """CREATE TABLE IF NOT EXISTS runs (
-        run_id TEXT PRIMARY KEY,
-        status TEXT NOT NULL CHECK (status IN ('running','passed','failed','tripped','aborted','unsafe')),
-        exit_code INTEGER,
-        started TEXT NOT NULL,
-        finished TEXT,
-        pid INTEGER,
-        host TEXT,
-        process_token TEXT,
-        unit TEXT NOT NULL,
-        lab TEXT NOT NULL,
-        station_name TEXT NOT NULL,
-        sequence_text TEXT NOT NULL,
-        sequence_sha256 TEXT NOT NULL,
-        station_text TEXT,
-        station_sha256 TEXT,
-        software_version TEXT NOT NULL,
-        simulated TEXT,
-        samples INTEGER NOT NULL DEFAULT 0,
-        trip TEXT,
-        record TEXT,
-        results TEXT)""",
-    """CREATE TABLE IF NOT EXISTS steps (
-        run_id TEXT NOT NULL REFERENCES runs(run_id),
-        step_index INTEGER NOT NULL,
-        kind TEXT NOT NULL,
-        name TEXT NOT NULL,
-        started TEXT NOT NULL,
-        finished TEXT,
-        status TEXT,
-        PRIMARY KEY (run_id, step_index)) WITHOUT ROWID""",
-    # Clustered by (run_id, id): a run's samples sit together and appends go to the end.
-    """CREATE TABLE IF NOT EXISTS samples (
-        run_id TEXT NOT NULL REFERENCES runs(run_id),
-        id INTEGER NOT NULL,
-        step_index INTEGER NOT NULL,
-        t REAL NOT NULL,
-        wall REAL NOT NULL,
-        channel INTEGER NOT NULL,
-        u_rms REAL,
-        u_mean REAL,
-        i_rms REAL,
-        p REAL,
-        freq REAL,
-        setpoint REAL,
-        tag TEXT,
-        PRIMARY KEY (run_id, id)) WITHOUT ROWID""",
-    """CREATE TABLE IF NOT EXISTS events (
-        id INTEGER PRIMARY KEY,
-        run_id TEXT NOT NULL REFERENCES runs(run_id),
-        t REAL,
-        wall REAL NOT NULL,
-        kind TEXT NOT NULL,
-        text TEXT NOT NULL,
-        data TEXT)""",
-    "CREATE INDEX IF NOT EXISTS events_by_run ON events (run_id, id)",
-    """CREATE TABLE IF NOT EXISTS instruments (
-        run_id TEXT NOT NULL REFERENCES runs(run_id),
-        role TEXT NOT NULL,
-        maker TEXT,
-        model TEXT,
-        serial TEXT,
-        firmware TEXT,
-        resource TEXT,
-        profile TEXT,
-        calibration_due TEXT,
-        PRIMARY KEY (run_id, role)) WITHOUT ROWID""",
-    """CREATE TABLE IF NOT EXISTS readings (
-        id INTEGER PRIMARY KEY,
-        run_id TEXT NOT NULL REFERENCES runs(run_id),
-        step_index INTEGER NOT NULL,
-        tag TEXT NOT NULL,
-        channel INTEGER,
-        first_id INTEGER NOT NULL,
-        last_id INTEGER NOT NULL,
-        count INTEGER NOT NULL,
-        u_rms_mean REAL, u_rms_std REAL,
-        u_mean_mean REAL, u_mean_std REAL,
-        i_rms_mean REAL, i_rms_std REAL,
-        p_mean REAL, p_std REAL,
-        freq_mean REAL, freq_std REAL,
-        stable INTEGER NOT NULL)""",
-    "CREATE INDEX IF NOT EXISTS readings_by_run ON readings (run_id, id)",
-    APPROVALS_TABLE,
+# Clustered by (run_id, id) on SQLite: a run's samples sit together and appends go to the end.
+samples = Table(
+    "samples", metadata,
+    _run_ref(),
+    Column("id", Integer, nullable=False, autoincrement=False),
+    Column("step_index", Integer, nullable=False),
+    Column("t", Float, nullable=False),
+    Column("wall", Float, nullable=False),
+    Column("channel", Integer, nullable=False),
+    Column("u_rms", Float),
+    Column("u_mean", Float),
+    Column("i_rms", Float),
+    Column("p", Float),
+    Column("freq", Float),
+    Column("setpoint", Float),
+    Column("tag", Text),
+    PrimaryKeyConstraint("run_id", "id"),
+    sqlite_with_rowid=False,
 )
 
+events = Table(
+    "events", metadata,
+    Column("id", Integer, primary_key=True),
+    _run_ref(),
+    Column("t", Float),
+    Column("wall", Float, nullable=False),
+    Column("kind", Text, nullable=False),
+    Column("text", Text, nullable=False),
+    Column("data", Text),
+)
+Index("events_by_run", events.c.run_id, events.c.id)
 
-def connect(path: Path) -> sqlite3.Connection:
-    """Open (creating if need be) the store at ``path``; every failure is a :class:`StoreError`."""
-    try:
-        conn = sqlite3.connect(path, timeout=BUSY_TIMEOUT_S, check_same_thread=False)
-    except sqlite3.Error as exc:
-        raise StoreError(f"{path}: cannot open the store: {exc}") from exc
-    try:
-        _configure(conn, path)
-        _ensure_schema(conn, path)
-    except BaseException as exc:
-        conn.close()
-        if isinstance(exc, sqlite3.Error):
-            raise StoreError(f"{path}: cannot open the store: {exc}") from exc
-        raise
-    return conn
+instruments = Table(
+    "instruments", metadata,
+    _run_ref(),
+    Column("role", Text, nullable=False),
+    Column("maker", Text),
+    Column("model", Text),
+    Column("serial", Text),
+    Column("firmware", Text),
+    Column("resource", Text),
+    Column("profile", Text),
+    Column("calibration_due", Text),
+    PrimaryKeyConstraint("run_id", "role"),
+    sqlite_with_rowid=False,
+)
 
+_STAT_COLUMNS = [Column(f"{q}_{s}", Float) for q in ("u_rms", "u_mean", "i_rms", "p", "freq") for s in ("mean", "std")]
+readings = Table(
+    "readings", metadata,
+    Column("id", Integer, primary_key=True),
+    _run_ref(),
+    Column("step_index", Integer, nullable=False),
+    Column("tag", Text, nullable=False),
+    Column("channel", Integer),
+    Column("first_id", Integer, nullable=False),
+    Column("last_id", Integer, nullable=False),
+    Column("count", Integer, nullable=False),
+    *_STAT_COLUMNS,
+    Column("stable", Integer, nullable=False),
+)
+Index("readings_by_run", readings.c.run_id, readings.c.id)
 
-def _configure(conn: sqlite3.Connection, path: Path) -> None:
-    mode = conn.execute("PRAGMA journal_mode=WAL").fetchone()[0]
-    if str(mode).lower() != "wal":
-        raise StoreError(f"{path}: the store needs SQLite's WAL journal, but the folder allows only "
-                         f"'{mode}' (a network drive?); put the data folder on a local disk")
-    # Commits happen about twice a second, so a sync at each one costs little and keeps
-    # committed samples through a power cut, not only through a crash of the process.
-    conn.execute("PRAGMA synchronous=FULL")
-    conn.execute("PRAGMA foreign_keys=ON")
-
-
-def _ensure_schema(conn: sqlite3.Connection, path: Path) -> None:
-    conn.execute("BEGIN IMMEDIATE")  # two processes opening a new store at once must not both create it
-    try:
-        version = _stored_version(conn, path)
-        if version is None:
-            _create(conn)
-        elif version > SCHEMA_VERSION:
-            raise StoreError(f"{path}: the store has schema version {version}, written by a newer "
-                             f"harness; this one reads up to version {SCHEMA_VERSION}; upgrade the harness")
-        elif version == 1:
-            _upgrade_from_1(conn)
-        elif version < SCHEMA_VERSION:
-            raise StoreError(f"{path}: schema version {version} is older than any this harness knows")
-        conn.execute("COMMIT")
-    except BaseException:
-        conn.execute("ROLLBACK")
-        raise
-
-
-def _stored_version(conn: sqlite3.Connection, path: Path) -> int | None:
-    names = {row[0] for row in conn.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
-    if "meta" not in names:
-        if names:
-            raise StoreError(f"{path}: this SQLite file is not a harness store (no meta table)")
-        return None
-    row = conn.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
-    try:
-        return int(row[0])
-    except (TypeError, ValueError) as exc:
-        raise StoreError(f"{path}: the store's meta table has no valid schema_version") from exc
-
-
-def _upgrade_from_1(conn: sqlite3.Connection) -> None:
-    """Version 1 to 2: the approvals table; nothing else changes."""
-    for statement in (APPROVALS_TABLE, *APPROVALS_APPEND_ONLY):
-        conn.execute(statement)
-    conn.execute("UPDATE meta SET value = ? WHERE key = 'schema_version'", (str(SCHEMA_VERSION),))
-
-
-def _create(conn: sqlite3.Connection) -> None:
-    for statement in (*TABLES, *APPROVALS_APPEND_ONLY):
-        conn.execute(statement)
-    conn.executemany("INSERT INTO meta (key, value) VALUES (?, ?)",
-                     [("schema_version", str(SCHEMA_VERSION)), ("application", APPLICATION)])
+# Schema version 3. Append-only: who checked or approved a finished run, when, and the SHA-256 of
+# the results text they approved; the database itself refuses any change or removal of a row
+# (triggers, made by the migration for each back end).
+approvals = Table(
+    "approvals", metadata,
+    Column("id", Integer, primary_key=True),
+    _run_ref(),
+    Column("approved", Text, nullable=False),
+    Column("name", Text, nullable=False),
+    Column("role", Text, nullable=False),
+    Column("note", Text),
+    Column("results_sha256", Text, nullable=False),
+)
+Index("approvals_by_run", approvals.c.run_id, approvals.c.id)

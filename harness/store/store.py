@@ -1,10 +1,15 @@
-"""The store of runs: one SQLite database in the data folder, written while the bay runs.
+"""The store of runs: SQLite in the data folder, or a lab's PostgreSQL database, written while the bay runs.
+
+The store is chosen by URL (:mod:`harness.store.database`); the layout and every query are the
+same on both back ends (SQLAlchemy Core, :mod:`harness.store.schema`), and the layout is brought
+up to date when the store is opened (:mod:`harness.store.migrate`).
 
 Samples are buffered in memory and committed by a background flusher every
 ``commit_interval_s`` (0.5 s), at every other write (step start and end, event, reading,
 run end) and on :meth:`Store.flush`. Every commit writes the buffered samples first, so
 nothing is ever committed ahead of the samples taken before it: a run killed at any moment
-leaves a consistent store holding everything up to its last commit.
+leaves a consistent store holding everything up to its last commit. A run's committed sample
+ids are therefore always 0..n-1, and ``runs.samples`` is n.
 
 ``add_sample`` takes no lock: it appends one tuple to a list, which the GIL makes atomic.
 The flusher copies the list, writes the copy and only then deletes what it wrote. A signal
@@ -15,6 +20,7 @@ commit in progress it returns at once and the interrupted commit finishes the wo
 from __future__ import annotations
 
 import itertools
+import math
 import operator
 import os
 import sqlite3
@@ -25,25 +31,29 @@ from pathlib import Path
 from typing import Any, Iterable, Iterator
 
 import numpy as np
+from sqlalchemy import func, select, update
+from sqlalchemy.dialects import postgresql as pg_dialect
+from sqlalchemy.dialects import sqlite as sqlite_dialect
+from sqlalchemy.exc import SQLAlchemyError
 
-from harness.store import export, journal, rows
+from harness.store import database, export, journal, rows, schema, transfer
+from harness.store.connection import Connection
 from harness.store.errors import AmbiguousRunError, StoreError, UnknownRunError
-from harness.store.paths import DATABASE_NAME, data_dir, ensure_folder, new_run_id, run_folder
-from harness.store.process import host_name, process_token, still_running
-from harness.store.schema import connect
+from harness.store.migrate import ensure_schema
+from harness.store.paths import data_dir, ensure_folder, new_run_id, run_folder
+from harness.store.process import host_name, process_token, station_id, still_running
 
-_INSERT_SAMPLE = ("INSERT OR IGNORE INTO samples (run_id, id, step_index, t, wall, channel, u_rms, u_mean, "
-                  "i_rms, p, freq, setpoint, tag) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)")
-_INSERT_RUN = ("INSERT INTO runs (run_id, status, started, pid, host, process_token, unit, lab, station_name, "
-               "sequence_text, sequence_sha256, station_text, station_sha256, software_version, simulated) "
-               "VALUES (:run_id, 'running', :started, :pid, :host, :process_token, :unit, :lab, :station_name, "
-               ":sequence_text, :sequence_sha256, :station_text, :station_sha256, :software_version, :simulated)")
-_INSERT_READING = ("INSERT INTO readings (run_id, step_index, tag, channel, first_id, last_id, count, stable, "
-                   + ", ".join(rows.READING_STATS) + ") VALUES (:run_id, :step_index, :tag, :channel, :first_id, "
-                   ":last_id, :count, :stable, " + ", ".join(f":{n}" for n in rows.READING_STATS) + ")")
 SAMPLE_CHUNK = 16_384  # rows per read: about 1.5 MB of numpy columns, 6 MB of rows
 _JSON_FIELDS = ("simulated", "trip", "record", "results")
 _RUN_OF_ROW = operator.itemgetter(0)
+_SAMPLE_KEYS = journal.SAMPLE_FIELDS
+_FLOATS = tuple(i for i, name in enumerate(_SAMPLE_KEYS) if name in ("u_rms", "u_mean", "i_rms", "p", "freq",
+                                                                       "setpoint"))
+_DB_ERRORS = (SQLAlchemyError, sqlite3.Error)
+_INSERTS = {"sqlite": sqlite_dialect.insert, "postgresql": pg_dialect.insert}
+_LISTED = ("run_id", "status", "samples", "started", "unit", "exit_code", "station_id", "station_name")
+_LIVENESS = ("pid", "host", "process_token")
+_RUNS, _SAMPLES = schema.runs, schema.samples
 
 
 class _Flusher(threading.Thread):
@@ -65,15 +75,42 @@ class _Flusher(threading.Thread):
 
 
 class Store:
-    """Runs, steps, raw samples, events, instruments and readings of the test bay."""
+    """Runs, steps, raw samples, events, instruments and readings of the test bay (a :class:`RunStore`).
 
-    def __init__(self, folder: Path | None = None, *, commit_interval_s: float = 0.5,
+    ``Store()`` opens the store that ``HARNESS_STORE`` names, else the SQLite file in the data
+    folder; ``Store(folder)`` the SQLite file in ``folder``; ``Store(url=...)`` the one named.
+    ``folder`` is where run folders (reports, exports) and journals go: a SQLite store's own
+    folder by default, the data folder for a server.
+    """
+
+    def __init__(self, folder: Path | None = None, *, url: str | None = None, commit_interval_s: float = 0.5,
                  background_flush: bool = True):
         if not (isinstance(commit_interval_s, (int, float)) and 0 < commit_interval_s <= 1.0):
             raise StoreError(f"commit_interval_s must be in (0, 1] s, got {commit_interval_s!r}")
-        self.folder = ensure_folder(Path(folder)) if folder is not None else data_dir()
-        self.path = self.folder / DATABASE_NAME
-        self._conn = connect(self.path)
+        if url is None and folder is not None:
+            url = database.sqlite_url(ensure_folder(Path(folder)) / database.DATABASE_NAME)
+        self.url = database.store_url(url)
+        file = database.sqlite_path(self.url)
+        self.path: Any = file if file is not None else database.redacted(self.url)
+        if folder is not None:
+            self.folder = ensure_folder(Path(folder))
+        else:
+            self.folder = ensure_folder(file.parent) if file is not None else data_dir()
+        self._engine = database.create(self.url)
+        try:
+            ensure_schema(self._engine, str(self.path))
+            self._conn = Connection(self._engine)
+        except (*_DB_ERRORS, self._engine.dialect.dbapi.Error) as exc:
+            self._engine.dispose()
+            raise StoreError(f"{self.path}: cannot open the store: {_reason(exc)}") from exc
+        except BaseException:
+            self._engine.dispose()
+            raise
+        dialect = self._engine.dialect.name
+        self._errors = self._conn.errors
+        self._insert_sample, _ = self._conn.sql(_INSERTS[dialect](_SAMPLES).on_conflict_do_nothing())
+        assert tuple(c.name for c in _SAMPLES.columns) == _SAMPLE_KEYS, "samples columns follow SAMPLE_FIELDS"
+        self._nan_is_a_value = dialect != "sqlite"  # SQLite keeps NaN as NULL; the server must be told  # SQLite keeps NaN as NULL; the server must be told
         self._lock = threading.RLock()
         self._depth = 0
         self._pending: list[tuple[Any, ...]] = []
@@ -102,12 +139,14 @@ class Store:
             self._flusher.stop()
         try:
             with self._transaction() as conn:
-                conn.executemany("UPDATE runs SET pid = NULL WHERE run_id = ? AND status = 'running'",
-                                 [(run_id,) for run_id in self._begun])
+                for run_id in sorted(self._begun):
+                    conn.execute(update(_RUNS).where(_RUNS.c.run_id == run_id, _RUNS.c.status == "running")
+                                 .values(pid=None))
         finally:
             self._closed = True
             self._counters.clear()  # a late add_sample then meets the closed store, not a lost buffer
             self._conn.close()
+            self._engine.dispose()
 
     def run_folder(self, run_id: str) -> Path:
         return run_folder(run_id, self.folder)
@@ -129,7 +168,8 @@ class Store:
         fields["station_sha256"] = rows.sha256(fields["station_text"])
         with self._transaction() as conn:
             run_id = self._unused_run_id(conn)
-            conn.execute(_INSERT_RUN, {"run_id": run_id, "started": rows.utc_now(), **_this_process(), **fields})
+            conn.execute(_RUNS.insert().values(run_id=run_id, status="running", started=rows.utc_now(),
+                                               station_id=station_id(), **_this_process(), **fields))
         self._track(run_id, 0)
         return run_id
 
@@ -137,34 +177,38 @@ class Store:
         """Record the identities of the run's instruments (replacing any given before)."""
         if not isinstance(instruments, (list, tuple)):
             raise StoreError(f"instruments must be a list of mappings, got {instruments!r}")
-        values = [rows.instrument_row(run_id, item) for item in instruments]
-        roles = [v[1] for v in values]
+        values = [dict(zip(("run_id", *rows.INSTRUMENT_FIELDS), rows.instrument_row(run_id, item)))
+                  for item in instruments]
+        roles = [v["role"] for v in values]
         if len(set(roles)) != len(roles):
             raise StoreError(f"an instrument role is given twice: {', '.join(roles)}")
+        table = schema.instruments
         with self._transaction() as conn:
             _require_run(conn, run_id)
-            conn.execute("DELETE FROM instruments WHERE run_id = ?", (run_id,))
-            conn.executemany(f"INSERT INTO instruments (run_id, {', '.join(rows.INSTRUMENT_FIELDS)}) "
-                             f"VALUES ({', '.join('?' * (len(rows.INSTRUMENT_FIELDS) + 1))})", values)
+            conn.execute(table.delete().where(table.c.run_id == run_id))
+            for value in values:
+                conn.execute(table.insert().values(**value))
 
     def begin_step(self, run_id: str, index: int, kind: str, name: str) -> None:
         step = rows.index(index, "step index")
-        values = (run_id, step, rows.label(kind, "step kind"), rows.text(name, "step name"), rows.utc_now())
+        values = {"run_id": run_id, "step_index": step, "kind": rows.label(kind, "step kind"),
+                  "name": rows.text(name, "step name"), "started": rows.utc_now()}
+        table = schema.steps
         with self._transaction() as conn:
             _require_run(conn, run_id)
-            if conn.execute("SELECT 1 FROM steps WHERE run_id = ? AND step_index = ?", (run_id, step)).fetchone():
+            if conn.execute(select(1).where(table.c.run_id == run_id, table.c.step_index == step)).fetchone():
                 raise StoreError(f"run {run_id}: step {step} was begun already; step indices are unique in a run")
-            conn.execute("INSERT INTO steps (run_id, step_index, kind, name, started) VALUES (?, ?, ?, ?, ?)", values)
+            conn.execute(table.insert().values(**values))
 
     def end_step(self, run_id: str, index: int, status: str) -> None:
         """Mark a step finished; its samples are committed in the same transaction."""
         step = rows.index(index, "step index")
-        values = (rows.utc_now(), rows.label(status, "step status"), run_id, step)
+        table = schema.steps
+        change = (update(table).where(table.c.run_id == run_id, table.c.step_index == step, table.c.finished.is_(None))
+                  .values(finished=rows.utc_now(), status=rows.label(status, "step status")))
         with self._transaction() as conn:
             _require_run(conn, run_id)
-            done = conn.execute("UPDATE steps SET finished = ?, status = ? WHERE run_id = ? AND step_index = ? "
-                                "AND finished IS NULL", values).rowcount
-            if not done:
+            if not conn.execute(change).rowcount:
                 raise StoreError(f"run {run_id}: step {step} was not begun, or has ended already")
 
     def add_sample(self, run_id: str, step_index: int, t: float, channel: int, u_rms: float | None,
@@ -195,17 +239,19 @@ class Store:
         values = {"run_id": run_id, "step_index": rows.index(step_index, "step index"),
                   "tag": rows.label(tag, "reading tag"), "first_id": first, "last_id": last,
                   **rows.reading_values(stats)}
+        values = {k: None if isinstance(v, float) and math.isnan(v) else v for k, v in values.items()}
         with self._transaction() as conn:
             _require_run(conn, run_id)
-            conn.execute(_INSERT_READING, values)
+            conn.execute(schema.readings.insert().values(**values))
 
     def add_event(self, run_id: str, t: float | None, kind: str, text: str, data: Any = None) -> None:
         """Record an event, committed at once together with every sample taken before it."""
-        values = (run_id, None if t is None else rows.bay_time(t), time.time(), rows.label(kind, "event kind"),
-                  rows.text(text, "event text"), rows.to_json(data))
+        values = {"run_id": run_id, "t": None if t is None else rows.bay_time(t), "wall": time.time(),
+                  "kind": rows.label(kind, "event kind"), "text": rows.text(text, "event text"),
+                  "data": rows.to_json(data)}
         with self._transaction() as conn:
             _require_run(conn, run_id, running=False)
-            conn.execute("INSERT INTO events (run_id, t, wall, kind, text, data) VALUES (?, ?, ?, ?, ?, ?)", values)
+            conn.execute(schema.events.insert().values(**values))
 
     def flush(self) -> None:
         """Commit the buffered samples now (before the safe-state procedure, say)."""
@@ -216,15 +262,16 @@ class Store:
 
     def uncommitted(self, run_id: str) -> list[dict[str, Any]]:
         """The run's samples buffered and not yet committed (all of them after a failed commit)."""
-        return [dict(zip(journal.SAMPLE_FIELDS, row)) for row in self._pending[:] if row[0] == run_id]
+        return [dict(zip(_SAMPLE_KEYS, row)) for row in self._pending[:] if row[0] == run_id]
 
     def amend_outcome(self, run_id: str, status: str, exit_code: int, trip: Any) -> None:
         """Change a finished run's outcome: only when what follows the run's end fails (its report)."""
         if status not in rows.FINAL_STATUSES:
             raise StoreError(f"a run ends as one of {', '.join(rows.FINAL_STATUSES)}, not {status!r}")
+        change = update(_RUNS).where(_RUNS.c.run_id == run_id).values(
+            status=status, exit_code=rows.index(exit_code, "exit code"), trip=rows.to_json(trip))
         with self._transaction() as conn:
-            conn.execute("UPDATE runs SET status = ?, exit_code = ?, trip = ? WHERE run_id = ?",
-                         (status, rows.index(exit_code, "exit code"), rows.to_json(trip), run_id))
+            conn.execute(change)
 
     def journal(self, run_id: str) -> Path | None:
         """The run's journal, when the store failed during it (see harness.store.journal)."""
@@ -233,12 +280,12 @@ class Store:
     def finish_run(self, run_id: str, status: str, exit_code: int, trip: Any, record: Any, results: Any) -> None:
         if status not in rows.FINAL_STATUSES:
             raise StoreError(f"a run ends as one of {', '.join(rows.FINAL_STATUSES)}, not {status!r}")
-        code = rows.index(exit_code, "exit code")
-        values = (status, code, rows.utc_now(), rows.to_json(trip), rows.to_json(record), rows.to_json(results), run_id)
+        change = update(_RUNS).where(_RUNS.c.run_id == run_id).values(
+            status=status, exit_code=rows.index(exit_code, "exit code"), finished=rows.utc_now(),
+            trip=rows.to_json(trip), record=rows.to_json(record), results=rows.to_json(results))
         with self._transaction() as conn:
             _require_run(conn, run_id)
-            conn.execute("UPDATE runs SET status = ?, exit_code = ?, finished = ?, trip = ?, record = ?, "
-                         "results = ? WHERE run_id = ?", values)
+            conn.execute(change)
         self._counters.pop(run_id, None)
         self._begun.discard(run_id)
 
@@ -248,46 +295,98 @@ class Store:
         row = {"run_id": run_id, "approved": rows.utc_now(), "name": rows.label(name, "approver's name").strip(),
                "role": rows.label(role, "approver's role").strip(), "note": rows.text(note, "note", optional=True)}
         with self._transaction() as conn:
-            found = conn.execute("SELECT status, results FROM runs WHERE run_id = ?", (run_id,)).fetchone()
+            found = conn.execute(select(_RUNS.c.status, _RUNS.c.results).where(_RUNS.c.run_id == run_id)).fetchone()
             if found is None:
                 raise UnknownRunError(f"no run '{run_id}' in {self.path}; `harness runs` lists the stored runs")
             if found[0] == "running":
                 raise StoreError(f"run {run_id} has not finished; only a finished run can be approved")
             row["results_sha256"] = rows.sha256(found[1] or "")
-            conn.execute("INSERT INTO approvals (run_id, approved, name, role, note, results_sha256) "
-                         "VALUES (:run_id, :approved, :name, :role, :note, :results_sha256)", row)
+            conn.execute(schema.approvals.insert().values(**row))
         return row
 
     def approvals(self, run_id: str) -> dict[str, Any]:
         """``results_sha256``: the SHA-256 of the run's results as stored now (None without
         results); ``rows``: its approvals, oldest first, each with ``results_match``, whether that
         hash is still the one that was approved."""
-        now = self._query("SELECT results FROM runs WHERE run_id = ?", (run_id,))
+        table = schema.approvals
+        now = self._query(select(_RUNS.c.results).where(_RUNS.c.run_id == run_id))
         current = rows.sha256(now[0]["results"] or "") if now else None
-        found = self._query("SELECT approved, name, role, note, results_sha256 FROM approvals "
-                            "WHERE run_id = ? ORDER BY id", (run_id,))
+        found = self._query(select(table.c.approved, table.c.name, table.c.role, table.c.note, table.c.results_sha256)
+                            .where(table.c.run_id == run_id).order_by(table.c.id))
         return {"results_sha256": current if now and now[0]["results"] else None,
                 "rows": [{**r, "results_match": r["results_sha256"] == current} for r in found]}
 
+    def replay_journal(self, run_id: str) -> int | None:
+        """Write the run's journal (what this store could not take when it failed) into it, in
+        one transaction, then mark the journal replayed; the samples added (None: no journal).
+        Idempotent: a replay cut short is run again, and nothing is doubled."""
+        path = self.journal(run_id)
+        if path is None:
+            return None
+        entries = journal.read_journal(path)
+        with self._transaction() as conn:
+            _require_run(conn, run_id, running=False)
+            added = transfer.apply_journal(conn, run_id, entries, self._insert_sample)
+        journal.mark_replayed(path)
+        return added
+
+    def copy_run_to(self, target: Store, run_id: str) -> int | None:
+        """Put the run into ``target``, whole, replacing what it held of it; the samples copied
+        (None: the target holds this run as it is here already, and nothing was written)."""
+        run_id = self.resolve(run_id)
+        with self._transaction() as conn:
+            found = transfer.run_rows(conn, run_id)
+        with target._transaction() as conn:
+            there = conn.dicts(select(*(_RUNS.c[n] for n in transfer.SAME_RUN)).where(_RUNS.c.run_id == run_id))
+            if there and there[0] == {n: found["runs"][0][n] for n in transfer.SAME_RUN}:
+                return None
+            return transfer.copy_run(conn, found, self.sample_pages(run_id), target._insert_sample)
+
     # -- reading --------------------------------------------------------------------------------
 
-    def runs(self) -> list[dict[str, Any]]:
-        """Every stored run, oldest first: run_id, status, samples, started, unit, exit_code."""
+    def runs(self, *, station: str | None = None, unit: str | None = None, status: str | None = None,
+             sequence: str | None = None, since: str | None = None, until: str | None = None) -> list[dict[str, Any]]:
+        """Stored runs, oldest first: run_id, status, samples, started, unit, exit_code, station_id,
+        station_name, journal. Filters (all optional, combined): ``station`` (its id or its name),
+        ``unit`` (text the unit contains), ``status`` (as listed: 'incomplete' too), ``sequence`` (the
+        start of its SHA-256), ``since``/``until`` (ISO dates or times, UTC, ``until`` inclusive)."""
         self.flush()
-        found = self._query("SELECT run_id, status, samples, started, unit, exit_code, pid, host, process_token "
-                            "FROM runs ORDER BY run_id")
-        return [{**{k: v for k, v in _with_visible_status(r).items() if k not in ("pid", "host", "process_token")},
-                 "journal": _optional_path(self.journal(r["run_id"]))} for r in found]
+        query = select(*(_RUNS.c[name] for name in (*_LISTED, *_LIVENESS))).order_by(_RUNS.c.run_id)
+        if station:
+            query = query.where((_RUNS.c.station_id == station) | (_RUNS.c.station_name == station))
+        if unit:
+            query = query.where(_RUNS.c.unit.contains(unit, autoescape=True))
+        if sequence:
+            query = query.where(_RUNS.c.sequence_sha256.startswith(sequence.lower(), autoescape=True))
+        if since:
+            query = query.where(_RUNS.c.started >= since)
+        if until:
+            query = query.where(func.substr(_RUNS.c.started, 1, len(until)) <= until)
+        if status:
+            stored = "running" if status == "incomplete" else status
+            query = query.where(_RUNS.c.status == stored)
+        found = [_with_visible_status(r) for r in self._query(query)]
+        return [{**{k: v for k, v in r.items() if k not in _LIVENESS},
+                 "journal": _optional_path(self.journal(r["run_id"]))}
+                for r in found if not status or r["status"] == status]
 
     def run(self, run_id_or_prefix: str) -> dict[str, Any]:
         """Everything about one run but its raw samples (see :meth:`samples`)."""
         run_id = self.resolve(run_id_or_prefix)
-        found = _with_visible_status(self._query("SELECT * FROM runs WHERE run_id = ?", (run_id,))[0])
+        found = _with_visible_status(self._query(select(_RUNS).where(_RUNS.c.run_id == run_id))[0])
         for name in _JSON_FIELDS:
             found[name] = rows.from_json(found[name])
         found.update(steps=self.steps(run_id), events=self.events(run_id),
                      instruments=self.instruments(run_id), readings=self.readings(run_id))
         return found
+
+    def results(self) -> list[dict[str, Any]]:
+        """Every finished run's run_id, unit, status, started, station_id, record and results (parsed),
+        oldest first: what a comparison across units needs, in one query."""
+        names = ("run_id", "unit", "status", "started", "station_id", "record", "results")
+        found = self._query(select(*(_RUNS.c[n] for n in names)).where(_RUNS.c.status != "running")
+                            .order_by(_RUNS.c.run_id))
+        return [{**r, "record": rows.from_json(r["record"]), "results": rows.from_json(r["results"])} for r in found]
 
     def resolve(self, run_id_or_prefix: str) -> str:
         """The full id of the one run whose id is, or begins with, the given text."""
@@ -295,7 +394,8 @@ class Store:
         if not key:
             raise UnknownRunError(f"give a run id (see `harness runs`), not {run_id_or_prefix!r}")
         found = [r["run_id"] for r in self._query(
-            "SELECT run_id FROM runs WHERE substr(run_id, 1, ?) = ? ORDER BY run_id LIMIT 6", (len(key), key))]
+            select(_RUNS.c.run_id).where(func.substr(_RUNS.c.run_id, 1, len(key)) == key)
+            .order_by(_RUNS.c.run_id).limit(6))]
         if key in found or len(found) == 1:
             return key if key in found else found[0]
         if not found:
@@ -327,28 +427,28 @@ class Store:
         """How many raw samples each (step, channel) of the run has (those without samples left out)."""
         run_id = self.resolve(run_id)
         self.flush()
-        found = self._query("SELECT step_index, channel, count(*) AS n FROM samples WHERE run_id = ? "
-                            "GROUP BY step_index, channel", (run_id,))
-        return {(r["step_index"], r["channel"]): r["n"] for r in found}
+        query = (select(_SAMPLES.c.step_index, _SAMPLES.c.channel, func.count().label("n"))
+                 .where(_SAMPLES.c.run_id == run_id).group_by(_SAMPLES.c.step_index, _SAMPLES.c.channel))
+        return {(r["step_index"], r["channel"]): r["n"] for r in self._query(query)}
 
     def sample_pages(self, run_id: str, columns: Iterable[str] | None = None,
-                     chunk: int = SAMPLE_CHUNK) -> Iterator[list[tuple[Any, ...]]]:
+                     chunk: int = SAMPLE_CHUNK, *, after: int = -1) -> Iterator[list[tuple[Any, ...]]]:
         """The run's raw samples as rows of ``columns`` (all of rows.SAMPLE_COLUMNS by default),
-        ``chunk`` rows at a time in id order, as :meth:`sample_chunks` reads them."""
+        ``chunk`` rows at a time in id order, as :meth:`sample_chunks` reads them; only those
+        whose id is above ``after`` (a live view's next rows)."""
         names = rows.sample_column_names(columns)
         if type(chunk) is not int or chunk < 1:
             raise StoreError(f"a chunk is a whole number of rows >= 1, got {chunk!r}")
         run_id = self.resolve(run_id)
         self.flush()
         key = names.index("id") if "id" in names else len(names)
-        sql = (f"SELECT {', '.join(names)}{'' if 'id' in names else ', id'} FROM samples "
-               "WHERE run_id = ? AND id > ? ORDER BY id LIMIT ?")
-        last = -1
+        chosen = [_SAMPLES.c[name] for name in names] + ([] if "id" in names else [_SAMPLES.c.id])
+        last = rows.index(after + 1, "after (a sample id, or -1)") - 1
         while True:
-            with self._lock, _mapped_errors(self.path):
-                if self._closed:
-                    raise StoreError(f"{self.path}: the store is closed")
-                page = self._conn.execute(sql, (run_id, last, chunk)).fetchall()
+            query = (select(*chosen).where(_SAMPLES.c.run_id == run_id, _SAMPLES.c.id > last)
+                     .order_by(_SAMPLES.c.id).limit(chunk))
+            with self._transaction() as conn:
+                page = conn.execute(query).fetchall()
             if not page:
                 return
             last = page[-1][key]
@@ -357,21 +457,26 @@ class Store:
                 return
 
     def events(self, run_id: str) -> list[dict[str, Any]]:
-        found = self._query("SELECT id, t, wall, kind, text, data FROM events WHERE run_id = ? ORDER BY id",
-                            (self.resolve(run_id),))
+        table = schema.events
+        found = self._query(select(table.c.id, table.c.t, table.c.wall, table.c.kind, table.c.text, table.c.data)
+                            .where(table.c.run_id == self.resolve(run_id)).order_by(table.c.id))
         return [{**e, "data": rows.from_json(e["data"])} for e in found]
 
     def steps(self, run_id: str) -> list[dict[str, Any]]:
-        return self._query("SELECT step_index, kind, name, started, finished, status FROM steps "
-                           "WHERE run_id = ? ORDER BY step_index", (self.resolve(run_id),))
+        table = schema.steps
+        return self._query(select(*(table.c[n] for n in ("step_index", "kind", "name", "started", "finished",
+                                                         "status")))
+                           .where(table.c.run_id == self.resolve(run_id)).order_by(table.c.step_index))
 
     def readings(self, run_id: str) -> list[dict[str, Any]]:
-        found = self._query("SELECT * FROM readings WHERE run_id = ? ORDER BY id", (self.resolve(run_id),))
+        table = schema.readings
+        found = self._query(select(table).where(table.c.run_id == self.resolve(run_id)).order_by(table.c.id))
         return [{**{k: v for k, v in r.items() if k != "run_id"}, "stable": bool(r["stable"])} for r in found]
 
     def instruments(self, run_id: str) -> list[dict[str, Any]]:
-        return self._query(f"SELECT {', '.join(rows.INSTRUMENT_FIELDS)} FROM instruments WHERE run_id = ? "
-                           "ORDER BY role", (self.resolve(run_id),))
+        table = schema.instruments
+        return self._query(select(*(table.c[n] for n in rows.INSTRUMENT_FIELDS))
+                           .where(table.c.run_id == self.resolve(run_id)).order_by(table.c.role))
 
     def export_csv(self, run_id: str, path: str | Path) -> Path:
         """Write the run's raw samples as CSV (a folder gets ``<run_id>-samples.csv``), streamed
@@ -389,7 +494,7 @@ class Store:
     # -- inside -----------------------------------------------------------------------------------
 
     @contextmanager
-    def _transaction(self) -> Iterator[sqlite3.Connection]:
+    def _transaction(self) -> Iterator[Any]:
         """One commit: the buffered samples first, then the caller's statements."""
         with self._lock:
             if self._depth:  # re-entered by a signal handler: the interrupted commit does the work
@@ -397,30 +502,43 @@ class Store:
                 return
             if self._closed:
                 raise StoreError(f"{self.path}: the store is closed")
+            # Plain commit and rollback, not SQLAlchemy's context managers: an exception from a
+            # signal handler may strike anywhere in here, and must leave a state the next commit
+            # can start from (a transaction left half-begun is rolled back first).
+            self._depth = 1
             try:
-                self._depth = 1
+                self._conn.begin()
                 written = self._write_pending()
                 yield self._conn
                 self._conn.commit()
             except BaseException as exc:
-                self._conn.rollback()
-                if isinstance(exc, sqlite3.Error):
-                    raise StoreError(f"{self.path}: {exc}") from exc
+                self._roll_back()
+                if not isinstance(exc, (self._errors, StoreError)):
+                    self._conn.interrupted()
+                if isinstance(exc, self._errors):
+                    raise StoreError(f"{self.path}: {_reason(exc)}") from exc
                 raise
             finally:
                 self._depth = 0
             del self._pending[:written]
             self.flush_error = None
 
+    def _roll_back(self) -> None:
+        try:
+            self._conn.rollback()
+        except self._errors:
+            pass  # a connection gone away has no transaction left; the next commit reopens it
+
     def _write_pending(self) -> int:
-        # A copy: samples appended meanwhile stay for the next commit. OR IGNORE makes a retry
-        # harmless when an interruption struck between a commit and the removal of its rows.
+        # A copy: samples appended meanwhile stay for the next commit. DO NOTHING on a known id
+        # makes a retry harmless when an interruption struck between a commit and the removal
+        # of its rows.
         batch = self._pending[:]
         for run_id, group in itertools.groupby(batch, key=_RUN_OF_ROW):
-            before = self._conn.total_changes
-            self._conn.executemany(_INSERT_SAMPLE, group)
-            added = self._conn.total_changes - before
-            self._conn.execute("UPDATE runs SET samples = samples + ? WHERE run_id = ?", (added, run_id))
+            values = [_nan_to_null(row) for row in group] if self._nan_is_a_value else list(group)
+            added = self._conn.insert_rows(_SAMPLES, self._insert_sample, values)  # rows already there not counted
+            self._conn.execute(update(_RUNS).where(_RUNS.c.run_id == run_id)
+                               .values(samples=_RUNS.c.samples + added))
         return len(batch)
 
     def _flush_from_background(self) -> None:
@@ -431,25 +549,21 @@ class Store:
         except Exception as exc:  # handed to the runner by its next add_sample
             self.flush_error = exc
 
-    def _query(self, sql: str, params: tuple[Any, ...] = ()) -> list[dict[str, Any]]:
-        with self._lock:
-            if self._closed:
-                raise StoreError(f"{self.path}: the store is closed")
-            try:
-                return rows.dicts(self._conn.execute(sql, params))
-            except sqlite3.Error as exc:
-                raise StoreError(f"{self.path}: {exc}") from exc
+    def _query(self, query: Any) -> list[dict[str, Any]]:
+        """Read in a transaction of its own (which commits the buffered samples first, as any)."""
+        with self._transaction() as conn:
+            return conn.dicts(query)
 
-    def _unused_run_id(self, conn: sqlite3.Connection) -> str:
+    def _unused_run_id(self, conn: Any) -> str:
         for _ in range(16):
             run_id = new_run_id()
-            if not conn.execute("SELECT 1 FROM runs WHERE run_id = ?", (run_id,)).fetchone():
+            if not conn.execute(select(1).where(_RUNS.c.run_id == run_id)).fetchone():
                 return run_id
         raise StoreError(f"{self.path}: no free run id this second")  # 16 draws of 65536 all taken
 
     def _open_counter(self, run_id: str) -> Iterator[int]:
         """A run begun by another Store object: continue its sample ids after the stored ones."""
-        found = self._query("SELECT status, samples FROM runs WHERE run_id = ?", (run_id,))
+        found = self._query(select(_RUNS.c.status, _RUNS.c.samples).where(_RUNS.c.run_id == run_id))
         if not found:
             raise UnknownRunError(f"no run '{run_id}' in {self.path}; call begin_run first")
         if found[0]["status"] != "running":
@@ -465,20 +579,24 @@ class Store:
         return counter
 
 
-@contextmanager
-def _mapped_errors(path: Path) -> Iterator[None]:
-    try:
-        yield
-    except sqlite3.Error as exc:
-        raise StoreError(f"{path}: {exc}") from exc
+def _reason(exc: BaseException) -> str:
+    """The database's own words, without SQLAlchemy's statement dump and links."""
+    original = getattr(exc, "orig", None)
+    return str(original if original is not None else exc).strip().splitlines()[0]
+
+
+def _nan_to_null(row: tuple[Any, ...]) -> tuple[Any, ...]:
+    if any(row[i] != row[i] for i in _FLOATS if row[i] is not None):
+        return tuple(None if i in _FLOATS and v is not None and v != v else v for i, v in enumerate(row))
+    return row
 
 
 def _this_process() -> dict[str, Any]:
     return {"pid": os.getpid(), "host": host_name(), "process_token": process_token(os.getpid())}
 
 
-def _require_run(conn: sqlite3.Connection, run_id: str, *, running: bool = True) -> None:
-    row = conn.execute("SELECT status FROM runs WHERE run_id = ?", (run_id,)).fetchone()
+def _require_run(conn: Any, run_id: str, *, running: bool = True) -> None:
+    row = conn.execute(select(_RUNS.c.status).where(_RUNS.c.run_id == run_id)).fetchone()
     if row is None:
         raise UnknownRunError(f"no run '{run_id}' in the store; call begin_run first")
     if running and row[0] != "running":

@@ -7,6 +7,8 @@ from pathlib import Path
 from typing import Any
 
 from harness.store import Store
+from harness.store.connection import Connection
+from harness.store.database import create
 
 RUN_FIELDS: dict[str, Any] = {
     "unit": "NT-0412 (50 kVA, 6600/415 V)", "lab": "Northfield Test Bay", "station_name": "bay-2",
@@ -25,10 +27,27 @@ def add(store: Store, run_id: str, n: int, *, step: int = 0, start: int = 0) -> 
             for i in range(n)]
 
 
-def committed(path: Path, sql: str = "SELECT COUNT(*) FROM samples", params: tuple[Any, ...] = ()) -> Any:
-    """What another connection (another process, say) sees in the database now."""
-    reader = sqlite3.connect(path)
+def committed(where: Store | Path, sql: str = "SELECT COUNT(*) FROM samples", params: tuple[Any, ...] = ()) -> Any:
+    """What another connection (another process, say) sees in the store now: a SQLite file's
+    path, or a store of any back end (SQL written with ``?`` marks)."""
+    if isinstance(where, Path):
+        reader = sqlite3.connect(where)
+        try:
+            return reader.execute(sql, params).fetchone()[0]
+        finally:
+            reader.close()
+    return execute(where, sql, params)
+
+
+def execute(store: Store, sql: str, params: tuple[Any, ...] = ()) -> Any:
+    """Run one statement on a connection of its own, committed; the first value it returns."""
+    engine = create(store.url)
+    conn = Connection(engine)
     try:
-        return reader.execute(sql, params).fetchone()[0]
+        cursor = conn.run(sql if conn.dialect_name == "sqlite" else sql.replace("?", "%s"), params)
+        row = cursor.fetchone() if cursor.description else None
+        conn.commit()
+        return None if row is None else row[0]
     finally:
-        reader.close()
+        conn.close()
+        engine.dispose()

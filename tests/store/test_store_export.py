@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from store_helpers import begin
 
-from harness.store import SAMPLE_COLUMNS, Store, StoreError, UnknownRunError, bench_store
+from harness.store import SAMPLE_COLUMNS, StoreError, UnknownRunError, bench_store
 from harness.store.export import EXPORT_NAMES
 
 HAS_PYARROW = importlib.util.find_spec("pyarrow") is not None
@@ -25,8 +25,8 @@ VALUES = [
 
 
 @pytest.fixture
-def filled(tmp_path):
-    with Store(tmp_path) as store:
+def filled(tmp_path, open_store):
+    with open_store() as store:
         run_id = begin(store)
         for step, t, channel, *rest in VALUES:
             store.add_sample(run_id, step, t, channel, *rest)
@@ -45,8 +45,8 @@ def test_samples_come_back_as_columns(filled):
     assert np.all(np.diff(columns["wall"]) >= 0)
 
 
-def test_an_empty_run_has_empty_columns(tmp_path):
-    with Store(tmp_path) as store:
+def test_an_empty_run_has_empty_columns(tmp_path, open_store):
+    with open_store() as store:
         columns = store.samples(begin(store))
     assert all(len(c) == 0 for c in columns.values()) and columns["t"].dtype == float
 

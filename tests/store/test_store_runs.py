@@ -10,25 +10,25 @@ import sys
 import time
 
 import pytest
-from store_helpers import RUN_FIELDS, add, begin, committed
+from store_helpers import RUN_FIELDS, add, begin, committed, execute
 
-from harness.store import AmbiguousRunError, Store, StoreError, UnknownRunError
+from harness.store import AmbiguousRunError, StoreError, UnknownRunError
 from harness.store.paths import new_run_id
-from harness.store.process import process_token
+from harness.store.process import process_token, station_id
 
 # FIPS 180-2, appendix B.1: SHA-256("abc").
 SHA256_ABC = "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
 
 
 @pytest.fixture
-def store(tmp_path):
-    with Store(tmp_path) as opened:
+def store(tmp_path, open_store):
+    with open_store() as opened:
         yield opened
 
 
 def test_a_run_is_committed_as_soon_as_it_begins(store):
     run_id = begin(store)
-    assert committed(store.path, "SELECT status FROM runs WHERE run_id = ?", (run_id,)) == "running"
+    assert committed(store, "SELECT status FROM runs WHERE run_id = ?", (run_id,)) == "running"
 
 
 def test_run_ids_carry_the_utc_start_time_and_sort_by_it(store):
@@ -62,7 +62,8 @@ def test_finish_run_keeps_status_trip_record_and_results(store):
     assert run["record"] == {"no_load": {"power": 160.0}} and run["results"] == {"warnings": []}
     listed = store.runs()
     assert listed == [{"run_id": run_id, "status": "tripped", "samples": 0, "started": run["started"],
-                       "unit": RUN_FIELDS["unit"], "exit_code": 3, "journal": None}]
+                       "unit": RUN_FIELDS["unit"], "exit_code": 3, "station_id": station_id(),
+                       "station_name": RUN_FIELDS["station_name"], "journal": None}]
 
 
 def test_a_finished_run_takes_no_more_samples_or_steps(store):
@@ -205,8 +206,8 @@ def test_json_that_cannot_be_kept_is_a_clear_error(store):
         begin(store, simulated="routine")
 
 
-def test_a_closed_store_says_so(tmp_path):
-    store = Store(tmp_path)
+def test_a_closed_store_says_so(tmp_path, open_store):
+    store = open_store()
     store.close()
     store.close()
     store.flush()  # a late signal handler may still call it
@@ -216,20 +217,15 @@ def test_a_closed_store_says_so(tmp_path):
 
 # -- runs whose process is gone --------------------------------------------------------------
 
-def _set(path, sql, params):
-    import sqlite3
-
-    conn = sqlite3.connect(path)
-    with conn:
-        conn.execute(sql, params)
-    conn.close()
+def _set(store, sql, params):
+    execute(store, sql, params)
 
 
 def test_a_running_run_of_a_gone_process_is_listed_incomplete(store):
     run_id = begin(store)
     child = subprocess.Popen([sys.executable, "-c", "pass"])
     child.wait()
-    _set(store.path, "UPDATE runs SET pid = ? WHERE run_id = ?", (child.pid, run_id))
+    _set(store, "UPDATE runs SET pid = ? WHERE run_id = ?", (child.pid, run_id))
     assert store.runs()[0]["status"] == "incomplete" and store.run(run_id)["status"] == "incomplete"
 
 
@@ -241,19 +237,19 @@ def test_a_run_of_this_live_process_is_listed_running(store):
 @pytest.mark.skipif(process_token(os.getpid()) is None, reason="process start times need /proc")
 def test_a_reused_pid_is_not_taken_for_the_run(store):
     run_id = begin(store)
-    _set(store.path, "UPDATE runs SET process_token = 'another-boot:12' WHERE run_id = ?", (run_id,))
+    _set(store, "UPDATE runs SET process_token = 'another-boot:12' WHERE run_id = ?", (run_id,))
     assert store.runs()[0]["status"] == "incomplete"
 
 
 def test_a_run_begun_on_another_host_stays_running(store):
     run_id = begin(store)
-    _set(store.path, "UPDATE runs SET host = 'bay-pc-7', pid = 1 WHERE run_id = ?", (run_id,))
+    _set(store, "UPDATE runs SET host = 'bay-pc-7', pid = 1 WHERE run_id = ?", (run_id,))
     assert store.runs()[0]["status"] == "running"
 
 
-def test_closing_without_finishing_leaves_the_run_incomplete(tmp_path):
-    with Store(tmp_path) as store:
+def test_closing_without_finishing_leaves_the_run_incomplete(tmp_path, open_store):
+    with open_store() as store:
         run_id = begin(store)
         add(store, run_id, 3)
-    with Store(tmp_path) as store:
+    with open_store() as store:
         assert store.runs() == [{**store.runs()[0], "status": "incomplete", "samples": 3}]

@@ -129,15 +129,19 @@ class Supervisor:
 # A three-phase bay's phases that part this far are a fault of the connections, not of the unit
 # (common practice, no source): the line-to-line voltages of any test, and the line currents of a
 # load-loss test (the no-load currents differ by design on a three-limb core). They are judged
-# once the readings stand well above the analyser's noise on ranges opened to the limits: from
-# 5 % of the voltage limit, and from 0.5 % of the current limit (an open link phase keeps the
-# first readings of a current ramp low, and they must already tell).
+# once the readings stand well above what the analyser's %-of-range error can make of them on
+# ranges opened to the limits: from 5 % of the limits. Lower, a few % of spread is the
+# instrument's; but when a load-loss ramp's next setpoint is refused (the unit drew far less
+# current than its impedance allows, as with an open link phase, whose first readings stay low),
+# a spread of UNBALANCE_REFUSED_PCT or more - an open phase gives 100 % - says why, at any level.
 UNBALANCE_LIMIT_PCT = 10.0
+UNBALANCE_REFUSED_PCT = 30.0
 UNBALANCE_VOLTAGE_FROM = 0.05
-UNBALANCE_CURRENT_FROM = 0.005
+UNBALANCE_CURRENT_FROM = 0.05
 
 
-def unbalance(sample: Sample, limits: EffectiveLimits, load_test: bool, step: str = "") -> ReadingFault | None:
+def unbalance(sample: Sample, limits: EffectiveLimits, load_test: bool, step: str = "",
+              refused: bool = False) -> ReadingFault | None:
     """A three-phase reading whose phases part beyond UNBALANCE_LIMIT_PCT, naming the phase: a
     dead source phase (the two line-to-line voltages through it drop) or an open link phase."""
     if len(sample.phases) != 3:
@@ -150,7 +154,9 @@ def unbalance(sample: Sample, limits: EffectiveLimits, load_test: bool, step: st
                             f"2-3, 3-1): the two through phase {phase} are low - a source phase or lead missing?",
                             step=step, time=sample.t, phase=phase)
     i = [abs(ph.i_rms) for ph in sample.phases]
-    if load_test and sample.i_rms > UNBALANCE_CURRENT_FROM * limits.current and _spread(i) > UNBALANCE_LIMIT_PCT:
+    judged = _spread(i) > UNBALANCE_REFUSED_PCT if refused else (
+        sample.i_rms > UNBALANCE_CURRENT_FROM * limits.current and _spread(i) > UNBALANCE_LIMIT_PCT)
+    if load_test and judged:
         odd = max(range(3), key=lambda k: abs(i[k] - (sum(i) - i[k]) / 2))
         phase = f"L{odd + 1}"
         return ReadingFault(f"line currents of the load-loss test unbalanced ({', '.join(f'{v:.4g}' for v in i)} A): "

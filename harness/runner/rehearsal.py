@@ -31,6 +31,8 @@ def nameplate_of(sequence: Sequence) -> np_unit.Nameplate:
         lv=np_unit.Winding(t.lv.rated_voltage, t.lv.connection, t.lv.neutral),
         winding_material=t.winding_material, reference_temperature=t.reference_temperature,
         vector_group=t.vector_group,
+        taps=(None if t.taps is None else
+              {"winding": t.taps.winding, "steps": list(t.taps.steps), "step": t.taps.step}),
         no_load_loss=g.no_load_loss if g else None, load_loss=g.load_loss if g else None,
         impedance=g.impedance if g else None, no_load_current=g.no_load_current if g else None)
 

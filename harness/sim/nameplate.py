@@ -108,6 +108,8 @@ class Nameplate:
     winding_material: str | None = None
     reference_temperature: float | None = None
     vector_group: str | None = None
+    taps: dict[str, Any] | None = None
+    """The tap range as the scenario takes it: {winding, steps: (lowest, highest), step in %}."""
     no_load_loss: float | None = None
     load_loss: float | None = None
     impedance: float | None = None
@@ -255,6 +257,9 @@ def _bay(n: Nameplate, z: float, i0: float, needs: BayNeeds) -> dict[str, Any]:
         "update_interval": 0.2, "overload_factor": 1.2})
     if phases == 3:
         analyser["connection"] = "three-wattmeter"
+    # the other winding's voltage on spare channels, for a ratio step (the built-in scenarios' wiring)
+    analyser["channels"] = 6 if phases == 3 else 3
+    analyser["open_winding"] = [4, 5, 6] if phases == 3 else [2]
     source = {
         "max_voltage": v_src, "max_current": i_src, "max_slew": step_up(v_src / 10.0),
         "settling_time_constant": 0.2,
@@ -288,6 +293,8 @@ def scenario_document(n: Nameplate, needs: BayNeeds = BayNeeds()) -> tuple[dict[
         transformer.update(fields)
         if note:
             assumed += (note,)
+    if n.taps is not None:
+        transformer["taps"] = dict(n.taps)
     transformer.update(_windings(n, pk, z, theta_ref, c))
     transformer.update({
         "resistance_temperature": RESISTANCE_TEMPERATURE_C, "reference_temperature": theta_ref,

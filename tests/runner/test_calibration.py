@@ -45,7 +45,7 @@ def served_station(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
 def with_analyser(station: str, fields: str) -> str:
     """The station with ``fields`` added to the analyser's flow mapping."""
     line = next(ln for ln in station.splitlines() if ln.strip().startswith("analyser: {"))
-    return station.replace(line, line.rstrip().rstrip("}") + ", " + fields + "}")
+    return station.replace(line, line.replace("analyser: {", "analyser: {" + fields + ", ", 1))
 
 
 def write(tmp_path: Path, text: str) -> Path:

@@ -24,7 +24,7 @@ from harness.config.reach import (FIRST_SETPOINT_SHARE, FIXED_INCREMENT_S, LOWES
 from harness.runner.context import Run, Sample
 from harness.runner.steps import register
 from harness.runner.steps.diagnosis import excess_magnetising, open_circuit
-from harness.safety import LimitTrip, Trip
+from harness.safety import unbalance, LimitTrip, Trip
 
 RAMP_FLOOR_REAL_S = 10.0
 RAMP_AVERAGING_S = 0.05     # analyser update interval while ramping (bay seconds)
@@ -169,6 +169,10 @@ def _send_explained(run: Run, wanted: float, s: Sample, quantity: str) -> None:
         run.send_setpoint(wanted)
     except LimitTrip as refused:
         shorted = run.wiring is not None and run.wiring.other == "short"
+        if quantity == "current" and shorted:
+            open_phase = unbalance(s, run.supervisor.limits, True, run.step_title, refused=True)
+            if open_phase is not None:  # one phase of the circuit open: the others carry what current flows
+                raise open_phase from refused
         cause = open_circuit(run, s, judge_from=0.0) if quantity == "current" and shorted else None
         if cause is None:
             raise

@@ -108,12 +108,12 @@ class Nameplate:
     winding_material: str | None = None
     reference_temperature: float | None = None
     vector_group: str | None = None
-    taps: dict[str, Any] | None = None
-    """The tap range as the scenario takes it: {winding, steps: (lowest, highest), step in %}."""
     no_load_loss: float | None = None
     load_loss: float | None = None
     impedance: float | None = None
     no_load_current: float | None = None
+    taps: dict[str, Any] | None = None
+    """The tap range as the scenario takes it: {winding, steps: (lowest, highest), step in %}."""
 
 
 @dataclass(frozen=True)

@@ -339,7 +339,8 @@ class Store:
         with target._transaction() as conn:
             there = conn.dicts(select(*(_RUNS.c[n] for n in transfer.SAME_RUN)).where(_RUNS.c.run_id == run_id))
             if there and there[0] == {n: found["runs"][0][n] for n in transfer.SAME_RUN}:
-                return None
+                # the run is there as it is here; approvals given since still go across
+                return 0 if transfer.add_approvals(conn, run_id, found["approvals"]) else None
             return transfer.copy_run(conn, found, self.sample_pages(run_id), target._insert_sample)
 
     # -- reading --------------------------------------------------------------------------------

@@ -35,17 +35,36 @@ def run_rows(conn: Connection, run_id: str) -> dict[str, list[dict[str, Any]]]:
     for table in (schema.steps, schema.instruments, schema.events, schema.readings):
         query = select(table).where(table.c.run_id == run_id)
         found[table.name] = conn.dicts(query.order_by(*(c for c in table.primary_key.columns)))
+    approvals = schema.approvals
+    found["approvals"] = conn.dicts(select(approvals).where(approvals.c.run_id == run_id).order_by(approvals.c.id))
     return found
+
+
+def add_approvals(target: Connection, run_id: str, approvals: list[dict[str, Any]]) -> int:
+    """Append the approvals the target lacks (the same person, role and time is the same row);
+    approvals are append-only on every store, so none is ever replaced or removed."""
+    table, added = schema.approvals, 0
+    for row in approvals:
+        same = and_(table.c.run_id == run_id, table.c.approved == row["approved"], table.c.name == row["name"],
+                    table.c.role == row["role"])
+        if not target.execute(select(1).where(same)).fetchone():
+            target.execute(table.insert().values(**{k: v for k, v in row.items() if k != "id"}))
+            added += 1
+    return added
 
 
 def copy_run(target: Connection, found: dict[str, list[dict[str, Any]]],
              sample_pages: Iterable[list[tuple[Any, ...]]], insert_sample: str) -> int:
     """Replace the run in ``target`` by ``found`` and its samples; how many samples went in."""
-    run_id = found["runs"][0]["run_id"]
+    run_id, run = found["runs"][0]["run_id"], found["runs"][0]
     for table in _CHILDREN:
         target.execute(delete(table).where(table.c.run_id == run_id))
-    target.execute(delete(schema.runs).where(schema.runs.c.run_id == run_id))
-    target.execute(schema.runs.insert().values(**found["runs"][0]))
+    runs = schema.runs  # updated in place, never removed: the target's approvals refer to it
+    if target.execute(select(1).where(runs.c.run_id == run_id)).fetchone():
+        target.execute(update(runs).where(runs.c.run_id == run_id).values(**{k: v for k, v in run.items()
+                                                                              if k != "run_id"}))
+    else:
+        target.execute(runs.insert().values(**run))
     for table in (schema.steps, schema.instruments, schema.events, schema.readings):
         for row in found[table.name]:
             values = {k: v for k, v in row.items() if not (k == "id" and table.name in ("events", "readings"))}
@@ -53,6 +72,7 @@ def copy_run(target: Connection, found: dict[str, list[dict[str, Any]]],
     added = 0
     for page in sample_pages:  # rows of rows.SAMPLE_COLUMNS: the table's columns after run_id
         added += target.insert_rows(schema.samples, insert_sample, [(run_id, *row) for row in page])
+    add_approvals(target, run_id, found.get("approvals", []))
     return added
 
 

@@ -67,3 +67,20 @@ def test_a_results_change_after_approval_is_detected(open_store) -> None:
 def _text(statement: str):
     from sqlalchemy import text
     return text(statement)
+
+
+def test_sync_forwards_approvals_and_an_approved_run_is_never_replaced(tmp_path: Path, store_url: str) -> None:
+    """A station's run synced to the lab database, approved at the station afterwards, synced
+    again: the approval arrives once, and a later re-copy of the run keeps the lab's approvals."""
+    with Store(tmp_path / "station", background_flush=False) as station, \
+            Store(tmp_path / "lab", url=store_url) as lab:
+        run_id = _finished_run(station)
+        assert station.copy_run_to(lab, run_id) is not None
+        station.approve(run_id, name="A. Approver", role="approved")
+        assert station.copy_run_to(lab, run_id) == 0  # the approval went across, nothing else
+        assert station.copy_run_to(lab, run_id) is None  # and only once
+        lab.approve(run_id, name="B. Checker", role="checked")
+        station.amend_outcome(run_id, "tripped", 3, {"cause": "amended"})
+        station.copy_run_to(lab, run_id)  # a changed run is copied again, its approvals kept
+        assert [r["name"] for r in lab.approvals(run_id)["rows"]] == ["A. Approver", "B. Checker"]
+        assert lab.run(run_id)["status"] == "tripped"

@@ -20,6 +20,8 @@ from harness.report.figures import load_series_figure
 # (IEC 60076-1:2011 clause numbers, recalled from memory; IEEE C57.12.90 sections likewise).
 ROUTINE_TESTS = (
     ("resistance", "Measurement of winding resistance", "IEC 60076-1, 11.2", "IEEE C57.12.90, 5"),
+    ("ratio", "Measurement of voltage ratio and check of phase displacement", "IEC 60076-1, 11.3",
+     "IEEE C57.12.90, 6"),
     ("no_load", "Measurement of no-load loss and current", "IEC 60076-1, 11.5", "IEEE C57.12.90, 8"),
     ("load", "Measurement of short-circuit impedance and load loss", "IEC 60076-1, 11.4", "IEEE C57.12.90, 9"),
 )
@@ -58,6 +60,7 @@ def summary_nameplate(unit: dict[str, Any], nameplate: list[tuple[str, str]]) ->
 def tests_performed(bundle: ReportBundle, standard_key: str) -> list[dict[str, str]]:
     """Each routine test: performed or not in this run, with the clause that describes it."""
     done = {"resistance": bool(bundle.certificate.get("resistances")),
+            "ratio": bool(bundle.results.get("ratio")),
             "no_load": bool(bundle.results.get("no_load")), "load": bool(bundle.results.get("load"))}
     return [{"name": name, "clause": ieee if standard_key == "ieee" else iec,
              "done": "performed" if done[key] else "not performed in this run"}

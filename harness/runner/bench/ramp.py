@@ -100,9 +100,9 @@ def _nameplate_gain(run: Any, quantity: str) -> float:
     factor = run.supervisor.setpoint_factor
     if quantity == "voltage":
         return float(factor)
-    g = run.sequence.guarantees
-    z_pct = getattr(g, "impedance", None) or 6.0
-    return 1.0 / (z_pct / 100 * run.rated("voltage") / factor / run.rated("current"))
+    from harness.config.reach import current_per_volt
+    z_pct = getattr(run.sequence.guarantees, "impedance", None) or 6.0
+    return float(factor) * current_per_volt(run.rated("voltage"), run.rated("current"), z_pct)
 
 
 def _proportional(run: Any, quantity: str, target: float, tolerance_pct: float) -> Any:

@@ -19,8 +19,8 @@ from collections import deque
 from dataclasses import dataclass
 
 from harness.config.steps import Ramp
-from harness.config.reach import (FIRST_SETPOINT_SHARE, FIXED_INCREMENT_S, LOWEST_PLAUSIBLE_IMPEDANCE_PCT,
-                                  band_top, fixed_increment_volts)
+from harness.config.reach import (FIRST_SETPOINT_SHARE, FIXED_INCREMENT_S, band_top, current_per_volt,
+                                  fixed_increment_volts)
 from harness.runner.context import Run, Sample
 from harness.runner.steps import register
 from harness.runner.steps.diagnosis import excess_magnetising, open_circuit
@@ -79,7 +79,7 @@ def first_gain(run: Run, quantity: str) -> float:
     factor = run.supervisor.setpoint_factor  # line volts per source volt: sqrt 3 for a three-phase source
     if quantity == "voltage":
         return factor
-    return 1.0 / (LOWEST_PLAUSIBLE_IMPEDANCE_PCT / 100 * run.rated("voltage") / factor / run.rated("current"))
+    return factor * current_per_volt(run.rated("voltage"), run.rated("current"), None)
 
 
 def ramp_to(run: Run, quantity: str, target: float, tolerance_pct: float, method: str = "learned") -> RampResult:

@@ -5,10 +5,10 @@ Each problem is reported at the place in the sequence file that causes it.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from typing import Any, Iterator
 
+from harness.calc.phases import rated_current as rated_line_current
 from harness.common.errors import InputError, InputErrors
 from harness.common.yamlio import LoadedYaml
 from harness.config.sequence import Sequence
@@ -52,8 +52,7 @@ def rated_voltage(sequence: Sequence, winding: str) -> float:
 
 def rated_current(sequence: Sequence, winding: str) -> float:
     t = sequence.transformer
-    phases_factor = math.sqrt(3) if t.phases == 3 else 1.0
-    return t.rated_power / (phases_factor * rated_voltage(sequence, winding))
+    return rated_line_current(t.rated_power, rated_voltage(sequence, winding), t.phases)
 
 
 def resolve_target(sequence: Sequence, step: TargetStep | Sweep, text: str, winding: str) -> float:

@@ -18,8 +18,9 @@ from __future__ import annotations
 import contextlib
 import math
 import tempfile
+from collections.abc import Iterator
 from pathlib import Path
-from typing import Any, Iterator
+from typing import Any
 from unittest import mock
 
 import numpy as np
@@ -28,7 +29,9 @@ import yaml
 TOLERANCE_PCT = 0.3
 TIME_SCALE = 5.0
 UNITS = {"default": 1.0, "low-impedance": 0.5, "high-impedance": 2.5}
-TARGETS = {"ratio_to_bound": 1.3, "ratio_to_floor": 1.3, "overshoot_pct": 0.5}
+# Goals: within 10 % of the floor on every unit, and no reading past the band's top (overshoot);
+# the bound's figure is kept for comparison with the baseline.
+TARGETS = {"ratio_to_floor": 1.10, "overshoot_pct": 0.0}
 P_PERIOD_S = 0.25
 P_SHARE = 0.6
 
@@ -170,7 +173,11 @@ def _one_unit(folder: Path, name: str, factor: float, tol_pct: float, time_scale
 
 def _settle(samples: dict[str, np.ndarray], events: list[dict[str, Any]], ramp: str, watch: str, target: float,
             tol_pct: float, slew: float, tau: float) -> dict[str, float]:
-    """Settling time from the ramp's start: the last time the current was outside the tolerance."""
+    """Settling time from the ramp's start: the last time the current was outside the tolerance.
+    Overshoot: how far the highest reading passed the band's top (a reading above the target but
+    inside the band is where a ramp aiming high in its band lands; ``peak_above_target_pct`` shows it)."""
+    from harness.config.reach import band_top
+
     steps = {e["text"].split(": ", 1)[1]: e for e in events if e["kind"] == "step-start"}
     first, second = steps[ramp]["data"]["step"], steps[watch]["data"]["step"]
     start = steps[ramp]["t"]
@@ -184,7 +191,8 @@ def _settle(samples: dict[str, np.ndarray], events: list[dict[str, Any]], ramp: 
     bound, floor = bound_s(volts, slew, tau), floor_s(volts, slew, tau, tol_pct / 100)
     return {"settle_s": round(settle, 3), "bound_s": round(bound, 3), "floor_s": round(floor, 3),
             "ratio_to_bound": round(settle / bound, 3), "ratio_to_floor": round(settle / floor, 3),
-            "overshoot_pct": round(max(0.0, float(i.max() - target) / target * 100), 3)}
+            "overshoot_pct": round(max(0.0, float(i.max() - band_top(target, tol_pct)) / target * 100), 3),
+            "peak_above_target_pct": round(float(i.max() - target) / target * 100, 3)}
 
 
 def bench_ramp(tolerance_pct: float = TOLERANCE_PCT, time_scale: float = TIME_SCALE) -> dict[str, Any]:
@@ -195,6 +203,7 @@ def bench_ramp(tolerance_pct: float = TOLERANCE_PCT, time_scale: float = TIME_SC
             "overshoot_pct": demo["overshoot_pct"], "baseline_ratio_to_bound": demo["baseline_ratio_to_bound"],
             "baseline_ratio_to_floor": demo["baseline_ratio_to_floor"],
             "worst_ratio_to_floor": max(u["ratio_to_floor"] for u in units.values()),
+            "worst_overshoot_pct": max(u["overshoot_pct"] for u in units.values()),
             "units": units, "tolerance_pct": tolerance_pct, "time_scale": time_scale,
             "baseline": f"proportional: setpoint += {P_SHARE} x error / nameplate gain, read after the slew + {P_PERIOD_S} s",
             "targets": TARGETS}

@@ -18,13 +18,19 @@ import math
 from collections import deque
 from dataclasses import dataclass
 
+from harness.config.reach import (
+    FIRST_SETPOINT_SHARE,
+    FIXED_INCREMENT_S,
+    band_top,
+    current_per_volt,
+    fixed_increment_volts,
+)
 from harness.config.steps import Ramp
-from harness.config.reach import (FIRST_SETPOINT_SHARE, FIXED_INCREMENT_S, band_top, current_per_volt,
-                                  fixed_increment_volts)
 from harness.runner.context import Run, Sample
 from harness.runner.steps import register
 from harness.runner.steps.diagnosis import excess_magnetising, open_circuit
-from harness.safety import unbalance, LimitTrip, Trip
+from harness.runner.steps.source_tail import SettlingTail
+from harness.safety import LimitTrip, Trip, unbalance
 
 RAMP_FLOOR_REAL_S = 10.0
 RAMP_AVERAGING_S = 0.05     # analyser update interval while ramping (bay seconds)
@@ -113,10 +119,15 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
     # since the no-load loss follows the square of where it lands.
     k = run.gains.get("drop")
     aim = target * (1 + 0.75 * band) if quantity == "current" and not k else target
+    # Until then, the drop is read off the source's settling tail as soon as the tail shows it
+    # (a quarter band's agreement: a misjudged drop may use a quarter of the band's upper half).
+    tail = None if k else SettlingTail(run.station.limits.slew, run.update_interval, run.setpoint, run.clock.now())
     k = k or 1.0
     live = run.setpoint > 0 and run.last_sample is not None
     if not live:
         _first_setpoint(run, quantity, aim, k)
+        if tail is not None:
+            tail.command(run.clock.now(), run.setpoint, trim=False)
     moved_at = run.clock.now()
     count = 0
     points: deque[tuple[float, float]] = deque(maxlen=GAIN_READINGS)
@@ -148,16 +159,24 @@ def _learned(run: Run, quantity: str, target: float, tolerance_pct: float) -> Ra
         count += 1
         steady = (live and count == 1) or (settled and sum(1 for t, _ in applied if t > moved_at) >= SETTLED_READINGS)
         if steady and K_RANGE[0] <= s.u_source / run.setpoint <= K_RANGE[1]:
-            k, aim = s.u_source / run.setpoint, target
+            k, aim, tail = s.u_source / run.setpoint, target, None
             run.gains["drop"] = k
+        elif tail is not None:
+            tail.add(s.t, s.u_source)
+            rest = tail.rest_share(band / 4)
+            if rest is not None and K_RANGE[0] <= rest <= K_RANGE[1]:
+                k, aim, tail = rest, target, None   # the settled reading still confirms it later
         if y > 0 and s.u_source > LEARN_FROM * run.setpoint:
             points.append((s.u_source, y))
             wanted = aim / _gain(points) / k
             if abs(wanted - run.setpoint) > NOISE_SHARE * band * wanted:  # below that, reading noise
-                if abs(wanted - run.setpoint) > band / 2 * wanted:
+                real = abs(wanted - run.setpoint) > band / 2 * wanted
+                if real:
                     applied.clear()  # a real move: the source must settle again
                 _send_explained(run, wanted, s, quantity)
                 moved_at = s.t
+                if tail is not None:
+                    tail.command(run.clock.now(), run.setpoint, trim=not real)
         if run.clock.now() > deadline:
             raise Trip(f"ramp did not reach {target:.4g} within tolerance", quantity, y, target, run.step_title, run.clock.now())
 

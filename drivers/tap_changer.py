@@ -11,6 +11,7 @@ naming the instrument and the command: the step stops and the bay goes to the sa
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Callable
 
 from drivers.errors import NotReached, ProtocolError
 from drivers.profile import Profile, TapChangerProfile
@@ -63,9 +64,11 @@ class TapChanger(ScpiInstrument):
             raise NotReached(f"the drive reaches taps {lowest} to {highest}, the unit has taps "
                              f"{self.unit_taps[0]} to {self.unit_taps[1]}", self.name, self._template("lowest"))
 
-    def move_to(self, tap: int) -> int:
+    def move_to(self, tap: int, watch: Callable[[], object] | None = None) -> int:
         """Drive to ``tap``, wait until the drive has stopped, and return the tap it reports,
-        which must be ``tap``. A tap off the unit's range is refused before anything is sent."""
+        which must be ``tap``. A tap off the unit's range is refused before anything is sent.
+        ``watch`` is called after each wait while the drive moves (the runner's supervised
+        reading, so an energised move is watched like any other moment)."""
         if isinstance(tap, bool) or not isinstance(tap, int):
             raise ValueError(f"{self.name}: a tap is a whole number, got {tap!r}")
         lowest, highest = self.unit_taps if self.unit_taps is not None else self.position_range()
@@ -74,20 +77,22 @@ class TapChanger(ScpiInstrument):
         start = self.position()
         command = self._template("set_position").format(value=tap)
         self.configure(command)
-        self._wait_stopped(command, self.move_timeout_s * max(1, abs(tap - start)))
+        self._wait_stopped(command, self.move_timeout_s * max(1, abs(tap - start)), watch)
         reached = self.position()
         self.check_errors(command)
         if reached != tap:
             raise NotReached(f"asked for tap {tap}, the drive stopped on tap {reached}", self.name, command)
         return reached
 
-    def _wait_stopped(self, command: str, timeout_s: float) -> None:
+    def _wait_stopped(self, command: str, timeout_s: float, watch: Callable[[], object] | None) -> None:
         deadline = self.clock.now() + timeout_s
         while self.is_moving():
             if self.clock.now() >= deadline:
                 raise NotReached(f"still moving {timeout_s:g} s after the command (its move timeout)",
                                  self.name, command)
             self.clock.sleep(POLL_INTERVAL_S)
+            if watch is not None:
+                watch()
 
     def _whole(self, command: str, quantity: str) -> int:
         value = self._query_number(command, quantity)

@@ -117,3 +117,12 @@ def test_the_generic_profile_and_its_short_forms() -> None:
     assert profile.command("moving") == "TAPChanger:MOVing?"
     assert short_form(profile.commands.lowest) == "TAPC:POS? MINimum"
     assert short_form(profile.commands.highest) == "TAPC:POS? MAXimum"
+
+
+def test_the_dialogue_of_the_generic_profile_on_pyvisa_sim(sim_rm) -> None:
+    with open_instrument("tap_changer", "TCPIP0::sim-tap-changer::5025::SOCKET", "generic", "tap changer",
+                         rm=sim_rm("generic-tap-changer"), clock=SteppedClock(), taps=(-2, 2)) as changer:
+        assert isinstance(changer, TapChanger) and changer.identify().model == "TC-SIM"
+        assert changer.position_range() == (-4, 4)
+        changer.check_range()
+        assert changer.move_to(-2) == -2 and changer.move_to(2) == 2 and changer.position() == 2

@@ -1,16 +1,16 @@
 """The ratio step: voltage ratio and phase displacement on every tap listed.
 
 Per tap: an off-circuit tap changer is moved at an operator prompt (switched off and confirmed
-de-energised first); an on-load one (the nameplate's ``changer: on-load``) by the station's
-drive, with the unit energised: the analyser's ranges opened to the step's limits, supervised
-readings while it moves, the tap it reports compared with the one asked, then readings taken and
-checked for the step's ``settle`` time but not averaged. The fed winding is brought to the step's reduced voltage; each reading is
-one supervised reading of the fed winding (``Run.read``, every limit checked), then one query of
-both windings' voltages (the fed winding's channels and the open winding's, the same analyser
-update) and the phase angle of each open-winding channel against its fed-winding pair. The open
-winding's voltage is checked against what the declared ratio gives: well above it means the
-connections are not what the prompt said, and the step stops. At the end the tap changer goes
-back to the principal tap (the loss tests are made there) and the output is off.
+de-energised first); an on-load one (the nameplate's ``changer: on-load``) by the station's drive,
+with the unit energised: the analyser's ranges opened to the step's limits, supervised readings
+while it moves, the tap it reports compared with the one asked, then readings taken and checked for
+the step's ``settle`` time but not averaged. The fed winding is brought to the step's reduced
+voltage; each reading is one supervised reading of the fed winding (``Run.read``, every limit
+checked), then one query of both windings' voltages (the fed winding's channels and the open
+winding's, the same analyser update) and the phase angle of each open-winding channel against its
+fed-winding pair. The open winding's voltage is checked against what the declared ratio gives: well
+above it means the connections are not what the prompt said, and the step stops. At the end the tap
+changer goes back to the principal tap (the loss tests are made there) and the output is off.
 """
 
 from __future__ import annotations

@@ -14,16 +14,17 @@ from typing import Any
 from drivers.ac_source import AcSource
 from drivers.bay_control import BayControl
 from drivers.errors import (ConnectionLost, InstrumentError, InstrumentReportedError, InstrumentTimeout,
-                            NotSupported, OverRange, ProtocolError)
+                            NotReached, NotSupported, OverRange, ProtocolError)
 from drivers.power_analyser import ChannelReading, PowerAnalyser, Snapshot
 from drivers.profile import KINDS, Profile, load_profile
 from drivers.resistance_meter import ResistanceMeter
 from drivers.scpi import Identity, ScpiInstrument
+from drivers.tap_changer import TapChanger
 from drivers.thermometer import Thermometer
 from drivers.transport import FakeTransport, PyvisaTransport, Transport
 
 INSTRUMENT_CLASSES: dict[str, type[ScpiInstrument]] = {
-    cls.KIND: cls for cls in (AcSource, PowerAnalyser, ResistanceMeter, Thermometer, BayControl)
+    cls.KIND: cls for cls in (AcSource, PowerAnalyser, ResistanceMeter, Thermometer, BayControl, TapChanger)
 }
 
 
@@ -49,7 +50,7 @@ def open_instrument(kind: str, resource: str, profile: Profile | str | Path, nam
 
 __all__ = sorted([
     "AcSource", "BayControl", "ChannelReading", "ConnectionLost", "FakeTransport", "INSTRUMENT_CLASSES",
-    "Identity", "InstrumentError", "InstrumentReportedError", "InstrumentTimeout", "KINDS", "NotSupported",
+    "Identity", "InstrumentError", "InstrumentReportedError", "InstrumentTimeout", "KINDS", "NotReached", "NotSupported",
     "OverRange", "PowerAnalyser", "Profile", "ProtocolError", "PyvisaTransport", "ResistanceMeter",
-    "ScpiInstrument", "Snapshot", "Thermometer", "Transport", "load_profile", "open_instrument",
+    "ScpiInstrument", "Snapshot", "TapChanger", "Thermometer", "Transport", "load_profile", "open_instrument",
 ])

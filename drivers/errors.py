@@ -50,3 +50,8 @@ class OverRange(InstrumentError):
 
 class NotSupported(InstrumentError):
     """The instrument's profile has no command for the operation asked (e.g. no watchdog)."""
+
+
+class NotReached(InstrumentError):
+    """A commanded move did not end where it was sent: still moving past its time, or stopped on
+    another position than the one asked (a tap changer's drive)."""

@@ -200,6 +200,18 @@ class BayControlCommands(_Commands):
     tap: str | None = None
 
 
+class TapChangerCommands(_Commands):
+    """An on-load tap changer's drive: move to a tap, the tap it is on, whether it is still
+    moving, and the lowest and highest tap it can reach."""
+    SPECS = {"set_position": (_N, False), "position": (_Q, True), "moving": (_Q, True),
+             "lowest": (_Q, True), "highest": (_Q, True)}
+    set_position: str
+    position: str
+    moving: str
+    lowest: str
+    highest: str
+
+
 class _Words(_Strict):
     @field_validator("*", mode="before")
     @classmethod
@@ -365,12 +377,18 @@ class BayControlProfile(Profile):
     words: WiringWords = WiringWords()
 
 
+class TapChangerProfile(Profile):
+    kind: Literal["tap_changer"]
+    commands: TapChangerCommands
+
+
 PROFILE_MODELS: dict[str, type[Profile]] = {
     "ac_source": AcSourceProfile,
     "power_analyser": PowerAnalyserProfile,
     "resistance_meter": ResistanceMeterProfile,
     "thermometer": ThermometerProfile,
     "bay_control": BayControlProfile,
+    "tap_changer": TapChangerProfile,
 }
 KINDS = tuple(PROFILE_MODELS)
 

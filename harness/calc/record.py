@@ -66,6 +66,9 @@ class Taps(_Model):
     winding: WindingName = Field(description="the tapped winding")
     steps: tuple[int, int] = Field(description="lowest and highest tap, e.g. [-2, 2]; 0 (principal) inside")
     step: Annotated[Percent, AfterValidator(_positive)] = Field(le=10.0, description="voltage step per tap, e.g. 2.5 %")
+    changer: Literal["off-circuit", "on-load"] = Field("off-circuit", description=(
+        "off-circuit: moved by hand with the unit de-energised (operator prompts); on-load: moved "
+        "energised, by the station's tap_changer between readings"))
 
     @model_validator(mode="after")
     def _principal_inside(self) -> Taps:

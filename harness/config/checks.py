@@ -214,6 +214,21 @@ class _Checker:
         for i, tap in enumerate(step.taps if isinstance(step.taps, list) else ()):
             if tap not in known:
                 self.fail(path + ("taps", i), f"tap {tap} is not on the nameplate (taps {known[0]} to {known[-1]})")
+        self.changer_in_station()
+
+    def changer_in_station(self) -> None:
+        """An on-load tap changer is moved by the station's drive between readings; without one
+        the ratio step could only ask for moves at prompts, which an on-load unit does not need
+        and the sequence did not ask for. Said once, at the nameplate's ``changer``."""
+        taps = self.sequence.transformer.taps
+        if taps is None or taps.changer != "on-load" or self.station.instruments.tap_changer is not None:
+            return
+        path = ("transformer", "taps", "changer")
+        message = ("changer: on-load needs the station's instruments.tap_changer (the drive that moves the "
+                   "taps between readings); this station has none: name it there, or declare the unit's "
+                   "changer off-circuit to move the taps at operator prompts")
+        if not any(e.message == message for e in self.errors):
+            self.fail(path, message)
 
     def ratio_commands_missing(self) -> list[str]:
         """The analyser operations a ratio step needs that its profile lacks (none checked without

@@ -65,12 +65,19 @@ class Instrument(Frozen):
         "three per winding, the line-to-line pairs 1-2, 2-3, 3-1"))
 
 
+class TapChangerInstrument(Instrument):
+    move_timeout: Duration = Field(30.0, gt=0, le=b.MAX_INTERVAL_S, description=(
+        "bay seconds a move may take per tap step before the drive counts as stuck"))
+
+
 class Instruments(Frozen):
     source: Instrument
     analyser: Instrument
     resistance_meter: Instrument | None = None
     thermometer: Instrument | None = None
     bay_control: Instrument | None = Field(None, description="simulated bay only: applies wiring changes")
+    tap_changer: TapChangerInstrument | None = Field(None, description=(
+        "an on-load tap changer's drive: moves the taps of a unit whose nameplate says changer: on-load"))
 
 
 class MeasurementWiring(Frozen):

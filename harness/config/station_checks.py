@@ -23,7 +23,9 @@ ProfileLoader = Callable[[str, str], Any]
 """``(name_or_path, kind) -> profile``; raises :class:`InputError` when it cannot."""
 
 ROLE_KINDS = {"source": "ac_source", "analyser": "power_analyser", "resistance_meter": "resistance_meter",
-              "thermometer": "thermometer", "bay_control": "bay_control"}
+              "thermometer": "thermometer", "bay_control": "bay_control", "tap_changer": "tap_changer"}
+# Roles that neither measure nor supply: no calibration to state or check.
+UNCALIBRATED = ("bay_control", "tap_changer")
 
 # Extra-low voltage: not exceeding 50 V a.c. (IEC 61140's ELV band, as IEC 61347-2-2 note 1 cites
 # it; the IEC term in IEC 62257-7-1, 3.55). Voltage band I of IEC 60449 (withdrawn 2016) is the
@@ -168,6 +170,7 @@ def serial_mismatches(station: Station, identities: list[dict[str, Any]]) -> lis
 
 
 def _instruments(station: Station) -> list[tuple[str, Instrument]]:
-    """The measuring and supplying instruments (the simulated bay's control is not calibrated)."""
-    return [(role, spec) for role in ROLE_KINDS if role != "bay_control"
+    """The measuring and supplying instruments (the simulated bay's control and a tap changer's
+    drive are not calibrated)."""
+    return [(role, spec) for role in ROLE_KINDS if role not in UNCALIBRATED
             and (spec := getattr(station.instruments, role)) is not None]

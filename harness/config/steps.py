@@ -90,7 +90,8 @@ class Sweep(OnQuantity):
 
 class Ratio(TargetStep):
     """Voltage ratio and phase displacement: the fed winding at a reduced voltage, both windings'
-    voltages read on every tap listed (the tap changer moved at operator prompts, off-circuit)."""
+    voltages read on every tap listed (an off-circuit tap changer moved at operator prompts, an
+    on-load one by the station's drive between readings)."""
     kind: Literal["ratio"]
     voltage: Target | None = Field(None, description="the reduced voltage: '3 %' of the fed winding's rated or '380 V'")
     tolerance: Percent = Field(1.0, gt=0, le=5, description="how close the measured voltage must come")
@@ -98,6 +99,9 @@ class Ratio(TargetStep):
         "all", description="'all' (lowest to highest) or a list of taps, e.g. [0, -2, 2]")
     readings: int = Field(5, ge=2, le=b.MAX_READINGS, description="readings averaged per tap")
     interval: Duration = Field(0.5, gt=0, le=b.MAX_INTERVAL_S)
+    settle: Duration = Field(2.0, ge=0, le=b.MAX_INTERVAL_S, description=(
+        "on-load tap changer: readings after each energised move are taken (and checked) this long "
+        "but not averaged"))
 
     @model_validator(mode="after")
     def _voltage_only(self):

@@ -12,7 +12,9 @@ from drivers.bay_control import BayControl
 from drivers.resistance_meter import ResistanceMeter
 from drivers.thermometer import Thermometer
 from drivers.power_analyser import PowerAnalyser
-from harness.config.station import Instrument, Station
+from drivers.tap_changer import TapChanger
+from harness.common.clock import Clock
+from harness.config.station import Instrument, Station, TapChangerInstrument
 from harness.config.station_checks import ROLE_KINDS, serial_mismatches
 
 
@@ -24,11 +26,11 @@ class Bay:
     resistance_meter: ResistanceMeter | None = None
     thermometer: Thermometer | None = None
     bay_control: BayControl | None = None
+    tap_changer: TapChanger | None = None
     identities: list[dict[str, Any]] = field(default_factory=list)
 
     def instruments(self) -> list[tuple[str, Any]]:
-        roles = ("source", "analyser", "resistance_meter", "thermometer", "bay_control")
-        return [(role, getattr(self, role)) for role in roles if getattr(self, role) is not None]
+        return [(role, getattr(self, role)) for role in ROLE_KINDS if getattr(self, role) is not None]
 
     def close(self) -> None:
         for _, instrument in self.instruments():
@@ -38,9 +40,12 @@ class Bay:
                 pass
 
 
-def open_bay(station: Station, rm: Any = None, phases: int = 1) -> Bay:
+def open_bay(station: Station, rm: Any = None, phases: int = 1, clock: Clock | None = None,
+             taps: tuple[int, int] | None = None) -> Bay:
     """Open every instrument the station names and ask each who it is; the analyser reads
-    channel 1, or channels 1 to 3 for a three-phase unit (one per line).
+    channel 1, or channels 1 to 3 for a three-phase unit (one per line). A tap changer's drive
+    waits for its moves on ``clock`` and must reach every tap of the unit (``taps``, lowest and
+    highest, from the nameplate).
 
     Nothing is energised here; the caller then puts the source at zero with its output off.
     """
@@ -51,14 +56,15 @@ def open_bay(station: Station, rm: Any = None, phases: int = 1) -> Bay:
             spec: Instrument | None = getattr(station.instruments, role)
             if spec is None:
                 continue
-            options = {"channels": tuple(range(1, phases + 1))} if role == "analyser" else {}
             instrument = open_instrument(kind, spec.resource, spec.profile, role, rm=rm, timeout_s=spec.timeout,
-                                         **options)
+                                         **_options(role, spec, phases, clock, taps))
             opened[role] = instrument
             identities.append(_identity(role, spec, instrument.identify()))
         mismatches = serial_mismatches(station, identities)
         if mismatches:
             raise InstrumentError("; ".join(mismatches), "station", "*IDN?")
+        if "tap_changer" in opened:
+            opened["tap_changer"].check_range()
     except BaseException:
         for instrument in opened.values():
             try:
@@ -67,6 +73,15 @@ def open_bay(station: Station, rm: Any = None, phases: int = 1) -> Bay:
                 pass
         raise
     return Bay(identities=identities, **opened)
+
+
+def _options(role: str, spec: Instrument, phases: int, clock: Clock | None,
+             taps: tuple[int, int] | None) -> dict[str, Any]:
+    if role == "analyser":
+        return {"channels": tuple(range(1, phases + 1))}
+    if isinstance(spec, TapChangerInstrument):
+        return {"clock": clock, "move_timeout_s": spec.move_timeout, "taps": taps}
+    return {}
 
 
 def _identity(role: str, spec: Instrument, idn: Any) -> dict[str, Any]:

@@ -99,7 +99,9 @@ def _run_on_bay(run_id: str, prepared: Prepared, station: Station, clock: Clock,
     never = {"confirmed": True, "method": "never energised", "notes": []}
     try:
         with signals.obeyed():
-            bay = open_bay(station, phases=prepared.sequence.transformer.phases)
+            taps = prepared.sequence.transformer.taps
+            bay = open_bay(station, phases=prepared.sequence.transformer.phases, clock=clock,
+                           taps=taps.steps if taps is not None and taps.changer == "on-load" else None)
     except InstrumentError as exc:
         fault = Trip(f"instrument fault before energising: {exc}").as_dict()
         return _finish(recorder, run_id, "tripped", fault, None, None, never, [], signals, options.defer_stopped_report)

@@ -34,7 +34,7 @@ instruments:
     serial: "{serial}-4"
     channels: {{ambient: 1, oil: 2, winding: 3}}
   bay_control: {{resource: "{bay_control}", profile: generic-bay-control, timeout: 2 s}}
-measurement: {{vt_ratio: {vt:g}, ct_ratio: {ct:g}}}
+{tap_changer_line}measurement: {{vt_ratio: {vt:g}, ct_ratio: {ct:g}}}
 measurement_chain:      # the simulated analyser's accuracy, from the scenario; its instrument
   channels:             # transformers (if any) are ideal, so ratio errors and displacements are zero
     - voltage_transformer: {{ratio: {vt:g}, burden: "{burden}"}}
@@ -63,7 +63,7 @@ safe_state: {{deenergised_voltage: {deenergised_voltage}, deenergised_current: {
 readings: {{late_after: 1 s, stale_after: 5 s, temperature_interval: 2 s}}
 """
 
-ROLES = ("source", "analyser", "resistance_meter", "thermometer", "bay_control")
+ROLES = ("source", "analyser", "resistance_meter", "thermometer", "bay_control", "tap_changer")
 PLACEHOLDER = {role: f"TCPIP0::127.0.0.1::{5025 + i}::SOCKET" for i, role in enumerate(ROLES)}
 
 
@@ -122,12 +122,22 @@ def _one_or_list(channels: tuple[int, ...]) -> int | list[int]:
     return channels[0] if len(channels) == 1 else list(channels)
 
 
+def _tap_changer_line(scenario: Any, resource: str) -> str:
+    """A unit with taps: the simulated bay's drive, which a nameplate's on-load changer uses
+    (an off-circuit one keeps its prompts)."""
+    if getattr(scenario.transformer, "taps", None) is None:
+        return ""
+    return (f'  tap_changer: {{resource: "{resource}", profile: generic-tap-changer, timeout: 2 s, '
+            f'move_timeout: {2 * scenario.bay.tap_change_time:g} s}}\n')
+
+
 def sim_station_text(resources: dict[str, str] | None = None, scenario: Any = None) -> str:
     """The station file for a simulated bay (placeholder resources before it is served)."""
     if scenario is None:
         from harness.sim.scenario import load_scenario
         scenario = load_scenario("default")
-    return _TEMPLATE.format(**{**PLACEHOLDER, **(resources or {}), **scenario_fields(scenario)})
+    fields = {**PLACEHOLDER, **(resources or {}), **scenario_fields(scenario)}
+    return _TEMPLATE.format(**fields, tap_changer_line=_tap_changer_line(scenario, fields["tap_changer"]))
 
 
 def sim_station(resources: dict[str, str] | None = None, scenario: Any = None) -> tuple[Station, str]:

@@ -24,7 +24,8 @@ from harness.sim.scenario import Scenario
 
 SERVED_FILE = "<station served by the simulated bay>"
 SPOKEN = {"source": ("generic-ac-source", "three-phase-ac-source"), "analyser": ("generic-power-analyser",),
-          "resistance_meter": ("generic-resistance-meter",), "thermometer": ("generic-thermometer",)}
+          "resistance_meter": ("generic-resistance-meter",), "thermometer": ("generic-thermometer",),
+          "tap_changer": ("generic-tap-changer",)}
 
 
 def fit_to_station(scenario: Scenario, station: Station) -> Scenario:

@@ -66,6 +66,7 @@ class Bay:
         self.wiring = Wiring(scenario.bay.wiring.fed, scenario.bay.wiring.other)
         self.faults = self._fault_states(list(scenario.faults) + [fault_spec(f) for f in faults])
         self.tap = scenario.bay.tap
+        self.tap_move: tuple[int, float] | None = None  # the drive's move under way: (tap it ends on, bay time)
         self._turns_key: tuple | None = None
         self.t = clock.now()
         self.energised_s = 0.0
@@ -88,6 +89,9 @@ class Bay:
                 raise UsageError(f"fault 'wrong-tap' needs tap {spec.tap} on the unit; scenario "
                                  f"'{self.scenario.name}' has " + (f"taps {taps.steps[0]} to {taps.steps[1]}"
                                                                   if taps else "no tap changer"))
+            if spec.name == "tap-changer-stuck" and taps is None:
+                raise UsageError(f"fault 'tap-changer-stuck' needs a unit with taps; scenario "
+                                 f"'{self.scenario.name}' has no tap changer")
         return {s.name: FaultState(s) for s in specs}
 
     # ------------------------------------------------------------------ faults
@@ -130,9 +134,21 @@ class Bay:
             due = self._watchdog_due()
             if due is not None and self.t <= due < end:
                 end = max(due, self.t)
+            if self.tap_move is not None and self.t <= self.tap_move[1] < end:
+                end = max(self.tap_move[1], self.t)
             self._step(end - self.t)
             if due is not None and self.t >= due:
                 self._watchdog_expire()
+            self._end_tap_move()
+        self._end_tap_move()
+
+    def _end_tap_move(self) -> None:
+        """The drive's move ends at its time: the tap is then in circuit (a stuck drive has not
+        moved; it stays on the tap it was on)."""
+        if self.tap_move is not None and self.t >= self.tap_move[1]:
+            if not self.fault_active("tap-changer-stuck"):
+                self.tap = self.tap_move[0]
+            self.tap_move = None
 
     def _step(self, dt: float) -> None:
         before = self.operating_point()
@@ -345,16 +361,49 @@ class Bay:
                 raise BayConflict("the bay is live; switch the output off before changing connections")
             self.wiring = Wiring(fed or self.wiring.fed, other or self.wiring.other)
 
-    def set_tap(self, tap: int) -> None:
-        """Move the off-circuit tap changer; refused while the bay is live or off the range."""
+    def tap_range(self) -> tuple[int, int]:
+        taps = self.scenario.transformer.taps
+        if taps is None:
+            raise ValueError("the unit has no tap changer")
+        return taps.steps
+
+    def _check_tap(self, tap: int) -> None:
         taps = self.scenario.transformer.taps
         if taps is None or not taps.steps[0] <= tap <= taps.steps[1]:
             span = f"{taps.steps[0]} to {taps.steps[1]}" if taps else "none: the unit has no tap changer"
             raise ValueError(f"tap {tap} is not a tap of the unit (taps {span})")
+
+    def set_tap(self, tap: int) -> None:
+        """Move the off-circuit tap changer by hand; refused while the bay is live, while the
+        drive is moving, or off the range."""
+        self._check_tap(tap)
         with self.lock:
             if self.is_live():
                 raise BayConflict("the bay is live; switch the output off before moving the off-circuit tap changer")
+            if self.tap_move is not None:
+                raise BayConflict("the tap changer's drive is moving")
             self.tap = tap
+
+    def drive_tap(self, tap: int) -> None:
+        """Start the on-load drive towards ``tap`` (live or not): it takes ``tap_change_time``
+        per step, then the tap is in circuit; a second move while one runs is refused."""
+        self._check_tap(tap)
+        with self.lock:
+            self.advance()
+            if self.tap_move is not None:
+                raise BayConflict("the tap changer's drive is still moving")
+            if tap != self.tap:
+                self.tap_move = (tap, self.t + abs(tap - self.tap) * self.scenario.bay.tap_change_time)
+
+    def tap_moving(self) -> bool:
+        with self.lock:
+            self.advance()
+            return self.tap_move is not None
+
+    def tap_position(self) -> int:
+        with self.lock:
+            self.advance()
+            return self.tap
 
     def source_command(self, action: str, value: float | bool | None = None) -> None:
         """Apply one source command at ``now`` (the stuck-output fault swallows the unsafe ones)."""

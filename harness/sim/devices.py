@@ -264,14 +264,39 @@ def bay_control_device(bay: Bay) -> Device:
     return Device("bay_control", tree)
 
 
-def _set_tap(bay: Bay, text: str) -> None:
+def _set_tap(bay: Bay, text: str, move: Callable[[int], None] | None = None) -> None:
     value = parse_number(text)
     if value != int(value):
         raise ScpiError(-224, f"a tap is a whole number, not {text}")
     try:
-        bay.set_tap(int(value))
+        (move or bay.set_tap)(int(value))
     except ValueError as exc:
         raise ScpiError(-222, str(exc)) from exc
+
+
+# ---------------------------------------------------------------------------- on-load tap changer
+
+def tap_changer_device(bay: Bay) -> Device:
+    """The on-load tap changer's drive (drivers/profiles/generic-tap-changer.yaml): a move is an
+    overlapped command; MOVing? answers 1 until it has ended."""
+    tree = CommandTree(_identity(bay, "SIM-TC6", 6))
+    _system(tree)
+    tree.add("TAPChanger:POSition", lambda p: _conflict(lambda: _set_tap(bay, one_param(p), bay.drive_tap)),
+             lambda p: _tap_query(bay, p))
+    tree.add("TAPChanger:MOVing", getter=lambda p: no_params(p) or _flag(bay.tap_moving()))
+    return Device("tap_changer", tree)
+
+
+def _tap_query(bay: Bay, params: list[str]) -> str:
+    """No parameter: the tap the drive is on; MINimum / MAXimum: the ends of its range."""
+    if not params:
+        return str(bay.tap_position())
+    try:
+        lowest, highest = bay.tap_range()
+    except ValueError as exc:
+        raise ScpiError(-241, str(exc)) from exc
+    word = parse_choice(one_param(params), ("MINimum", "MAXimum"))
+    return str(lowest if word == "MINIMUM" else highest)
 
 
 def _other(text: str) -> str:
@@ -284,4 +309,5 @@ DEVICE_FACTORIES: dict[str, Callable[[Bay], Device]] = {
     "resistance_meter": resistance_meter_device,
     "thermometer": thermometer_device,
     "bay_control": bay_control_device,
+    "tap_changer": tap_changer_device,
 }

@@ -42,6 +42,9 @@ FAULTS: dict[str, str] = {
                          "U): its emf stays at zero while the other two follow the setpoint",
     "wrong-tap": "one tap position is wired to the next tap's lead (by default tap +1 gives the turns of "
                  "tap +2): that tap's ratio is off by one step, the others are right",
+    "tap-changer-stuck": "the on-load tap changer's drive sticks once triggered (default after 1 bay "
+                         "second energised, so the first energised move): a move runs its time, then "
+                         "the changer reports the tap it was on, which stays in circuit",
     "wrong-vector-group": "the other winding is connected for another clock number (three-phase: a delta "
                           "closed on the other terminals or a zigzag the other way round, e.g. Dyn11 "
                           "as Dyn1; single-phase: reversed polarity)",
@@ -49,8 +52,8 @@ FAULTS: dict[str, str] = {
 
 FaultName = Literal["shorted-turn", "missing-link", "analyser-silent", "overrange",
                     "stuck-output", "garbage-reply", "dropped-connection", "open-link-phase",
-                    "dead-source-phase", "wrong-tap", "wrong-vector-group"]
-Role = Literal["source", "analyser", "resistance_meter", "thermometer", "bay_control"]
+                    "dead-source-phase", "wrong-tap", "wrong-vector-group", "tap-changer-stuck"]
+Role = Literal["source", "analyser", "resistance_meter", "thermometer", "bay_control", "tap_changer"]
 
 # Faults that act on one instrument's link rather than on the physics.
 LINK_FAULTS = ("analyser-silent", "garbage-reply", "dropped-connection")
@@ -111,6 +114,7 @@ DEFAULT_TRIGGERS: dict[str, FaultTrigger] = {
     "dead-source-phase": FaultTrigger(),
     "wrong-tap": FaultTrigger(),
     "wrong-vector-group": FaultTrigger(),
+    "tap-changer-stuck": FaultTrigger(after_energised=1.0),
 }
 
 

@@ -319,6 +319,9 @@ class BaySpec(_Frozen):
     initial_winding_rise: float = Field(0.0, ge=0, description="K above ambient at the start")
     initial_oil_rise: float = Field(0.0, ge=0, description="K above ambient at the start")
     tap: int = Field(0, ge=-40, le=40, description="the tap changer's position at the start")
+    # An on-load tap changer's drive takes a few seconds per step (common practice, no source).
+    tap_change_time: Duration = Field(3.0, gt=0, le=60, description=(
+        "bay seconds the tap changer's drive takes per tap step (TAPChanger:MOVing? answers 1 meanwhile)"))
     wiring: WiringSpec = WiringSpec()
 
 

@@ -119,7 +119,7 @@ class _Listener:
 
 
 class SimServer:
-    """Serve a bay's five instruments; ``start()`` returns role -> resource string."""
+    """Serve a bay's instruments, one port per role; ``start()`` returns role -> resource string."""
 
     def __init__(self, bay: Bay):
         self.bay = bay

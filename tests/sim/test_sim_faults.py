@@ -27,7 +27,7 @@ def switch_on_briefly(lb, volts: float = 100.0) -> float:
 def test_the_fault_names_are_the_agreed_ones():
     assert set(FAULTS) == {"shorted-turn", "missing-link", "analyser-silent", "overrange",
                            "stuck-output", "garbage-reply", "dropped-connection", "open-link-phase",
-                           "dead-source-phase", "wrong-tap", "wrong-vector-group"}
+                           "dead-source-phase", "wrong-tap", "wrong-vector-group", "tap-changer-stuck"}
     with pytest.raises(ValueError, match="unknown fault"):
         fault_spec("burnt-fuse")
 

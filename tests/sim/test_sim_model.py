@@ -109,7 +109,7 @@ class _Lines(io.StringIO):
 
 
 def test_serve_forever_prints_the_resources_and_stops():
-    out = _Lines(5)
+    out = _Lines(6)
     stop = threading.Event()
     thread = threading.Thread(target=serve_forever, args=(DEFAULT, 100.0, ()), kwargs={"out": out, "stop": stop})
     thread.start()
@@ -118,5 +118,5 @@ def test_serve_forever_prints_the_resources_and_stops():
     thread.join(60)
     assert printed and not thread.is_alive()
     roles = [line.split()[0] for line in out.getvalue().splitlines()]
-    assert roles == ["source", "analyser", "resistance_meter", "thermometer", "bay_control"]
+    assert roles == ["source", "analyser", "resistance_meter", "thermometer", "bay_control", "tap_changer"]
     assert all("::SOCKET" in line for line in out.getvalue().splitlines())

@@ -78,3 +78,47 @@ def test_the_tap_changer_does_not_move_while_live_or_off_its_range() -> None:
         bay.set_tap(1)
     with pytest.raises(ValueError, match="not a tap"):
         bay.set_tap(3)
+
+
+def _live_ratio(bay: Bay) -> list[float]:
+    channels = bay.analyser_snapshot()
+    fed = range(1, (3 if bay.three_phase else 1) + 1)
+    return [channels[a - 1].u_rms / channels[b - 1].u_rms for a, b in zip(fed, bay.scenario.analyser.open_winding)]
+
+
+def test_the_on_load_drive_moves_the_tap_live_after_its_time() -> None:
+    bay = _bay("three-phase")
+    true = truth(bay.scenario)["ratio"]["taps"]
+    bay.set_wiring("hv", "open")
+    bay.source_command("voltage", 230.0)
+    bay.source_command("output", True)
+    bay.clock.sleep(10.0)
+    step_time = bay.scenario.bay.tap_change_time
+    bay.drive_tap(2)
+    with pytest.raises(BayConflict, match="still moving"):
+        bay.drive_tap(1)
+    bay.clock.sleep(2 * step_time - 0.5)
+    assert bay.tap_moving() and bay.tap_position() == 0      # busy: the old tap still in circuit
+    bay.clock.sleep(0.5 + 2.0)
+    assert not bay.tap_moving() and bay.tap_position() == 2
+    assert _live_ratio(bay) == pytest.approx(true["2"]["ratio"], rel=2e-3)
+
+
+def test_a_stuck_drive_runs_its_time_and_stays_on_its_tap() -> None:
+    bay = _bay("three-phase", "tap-changer-stuck")
+    bay.set_wiring("hv", "open")
+    bay.source_command("voltage", 230.0)
+    bay.source_command("output", True)
+    bay.clock.sleep(10.0)                     # past the fault's default trigger (1 s energised)
+    bay.drive_tap(-1)
+    bay.clock.sleep(bay.scenario.bay.tap_change_time)
+    assert not bay.tap_moving() and bay.tap_position() == 0
+
+
+def test_the_stuck_fault_needs_a_unit_with_taps() -> None:
+    from harness.common.errors import UsageError
+    from harness.sim.scenario import load_scenario as load
+    plain = load("three-phase").model_copy(update={"transformer": load("three-phase").transformer.model_copy(
+        update={"taps": None})})
+    with pytest.raises(UsageError, match="needs a unit with taps"):
+        Bay(plain, SteppedClock(), ["tap-changer-stuck"])

@@ -1,13 +1,16 @@
 """The ratio step: voltage ratio and phase displacement on every tap listed.
 
-Per tap: the tap changer is moved at an operator prompt (off-circuit: switched off and confirmed
-de-energised first); the fed winding is brought to the step's reduced voltage; each reading is
-one supervised reading of the fed winding (``Run.read``, every limit checked), then one query of
-both windings' voltages (the fed winding's channels and the open winding's, the same analyser
-update) and the phase angle of each open-winding channel against its fed-winding pair. The open
-winding's voltage is checked against what the declared ratio gives: well above it means the
-connections are not what the prompt said, and the step stops. At the end the tap changer goes
-back to the principal tap (the loss tests are made there) and the output is off.
+Per tap: an off-circuit tap changer is moved at an operator prompt (switched off and confirmed
+de-energised first); an on-load one (the nameplate's ``changer: on-load``) by the station's drive,
+with the unit energised: the analyser's ranges opened to the step's limits, supervised readings
+while it moves, the tap it reports compared with the one asked, then readings taken and checked for
+the step's ``settle`` time but not averaged. The fed winding is brought to the step's reduced
+voltage; each reading is one supervised reading of the fed winding (``Run.read``, every limit
+checked), then one query of both windings' voltages (the fed winding's channels and the open
+winding's, the same analyser update) and the phase angle of each open-winding channel against its
+fed-winding pair. The open winding's voltage is checked against what the declared ratio gives: well
+above it means the connections are not what the prompt said, and the step stops. At the end the tap
+changer goes back to the principal tap (the loss tests are made there) and the output is off.
 """
 
 from __future__ import annotations
@@ -17,6 +20,7 @@ from typing import Any
 
 import numpy as np
 
+from drivers.tap_changer import TapChanger
 from harness.calc.ratio import declared_ratio, tap_factor, tap_name
 from harness.config.checks import OPEN_WINDING
 from harness.config.steps import Ratio
@@ -52,10 +56,27 @@ def expected_ratio(run: Run, tap: int) -> float:
     return ratio if run.fed == "hv" else 1.0 / ratio
 
 
-def move_tap(run: Run, tap: int) -> None:
-    """Set the tap changer at an operator prompt (nothing to do on a unit without taps)."""
+def on_load_changer(run: Run) -> TapChanger | None:
+    """The station's drive when the nameplate's changer is on-load; None: moves at prompts."""
     taps = run.sequence.transformer.taps
+    if taps is None or taps.changer != "on-load":
+        return None
+    if run.bay.tap_changer is None:  # refused by check already; never fall back to a live move by hand
+        raise ReadingFault("the unit's tap changer is on-load but the station has no tap_changer", step=run.step_title)
+    return run.bay.tap_changer
+
+
+def move_tap(run: Run, tap: int, settle: float = 0.0) -> None:
+    """Set the tap changer: by the station's drive for an on-load changer, else at an operator
+    prompt (nothing to do on a unit without taps)."""
+    taps = run.sequence.transformer.taps
+    changer = on_load_changer(run)
+    if changer is not None and run.tap is None:
+        run.tap = changer.position()
     if taps is None or run.tap == tap:
+        return
+    if changer is not None:
+        _drive(run, changer, tap, settle)
         return
     volts = (run.sequence.transformer.hv if taps.winding == "hv" else run.sequence.transformer.lv).rated_voltage
     text = (f"Set the off-circuit tap changer to tap {tap_name(tap)} "
@@ -63,6 +84,29 @@ def move_tap(run: Run, tap: int) -> None:
     operator_change(run, text, lambda bay_control: bay_control.set_tap(tap))
     run.tap = tap
     run.event("tap", f"tap changer at tap {tap_name(tap)}", {"tap": tap})
+
+
+def _drive(run: Run, changer: TapChanger, tap: int, settle: float) -> None:
+    """An on-load move: energised, every moment supervised; the tap read back, then settled."""
+    energised = run.energised
+    if energised:
+        run.range_for_limits()  # the magnetising current follows the tap: fitted ranges could overload
+    start = run.clock.now()
+    reached = changer.move_to(tap, watch=(lambda: run.read(tag="tap-move")) if energised else None)
+    run.tap = reached
+    state = "energised" if energised else "de-energised"
+    run.event("tap", f"on-load tap changer driven to tap {tap_name(reached)} ({state}, read back, "
+              f"{run.clock.now() - start:.3g} s)", {"tap": reached, "changer": "on-load", "energised": energised})
+    if energised:
+        _settle(run, settle)
+
+
+def _settle(run: Run, seconds: float) -> None:
+    """Readings after an energised move: supervised like every reading, not averaged."""
+    end = run.clock.now() + seconds
+    while run.clock.now() < end:
+        run.clock.sleep(min(run.update_interval, max(end - run.clock.now(), 0.0)))
+        run.read(tag="tap-settle")
 
 
 def channels(run: Run) -> tuple[tuple[int, ...], tuple[int, ...]]:
@@ -133,7 +177,7 @@ def execute(step: Ratio, run: Run) -> None:
     taps = taps_of(step, run)
     for index, tap in enumerate(taps):
         run.progress.stage(f"{step.title()}: tap {tap_name(tap)} ({index + 1} of {len(taps)})", index, len(taps))
-        move_tap(run, tap)
+        move_tap(run, tap, step.settle)
         ramp_to(run, "voltage", target, step.tolerance)
         _record(run, read_tap(run, step, tap))
     switch_off(run, "after the ratio test")

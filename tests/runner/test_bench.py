@@ -45,3 +45,14 @@ def test_energised_stretches_run_from_energising_to_a_confirmed_off():
         {"t": 15.5, "kind": "safe-state", "data": {"confirmed": True}},
     ]
     assert _energised(events) == [(2.0, 9.0), (10.0, 15.5)]
+
+
+def test_a_benchmark_away_from_a_checkout_says_so_without_a_traceback(monkeypatch, capsys):
+    """An installed package has no example sequences beside it: a one-line error, exit 2."""
+    from harness import cli
+    from harness.runner.bench import startup
+
+    monkeypatch.setattr(startup, "CHECK_SEQUENCE", "not-a-sequence.yaml")
+    assert cli.main(["bench", "startup"]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("harness: the example sequences are not in ") and "Traceback" not in err

@@ -24,7 +24,8 @@ def examples_folder() -> Path:
     """The example sequences beside the package (a checkout, or a source tree)."""
     folder = Path(__file__).resolve().parents[3] / "sequences"
     if not (folder / CHECK_SEQUENCE).is_file():
-        raise FileNotFoundError(f"the example sequences are not in {folder}; run the benchmark from a checkout")
+        from harness.common.errors import HarnessError
+        raise HarnessError(f"the example sequences are not in {folder}: run the benchmarks from a checkout")
     return folder
 
 

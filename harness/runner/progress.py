@@ -5,7 +5,7 @@ A live rich panel on a terminal; plain event lines otherwise (CI, pipes, --json 
 
 from __future__ import annotations
 
-import time
+import math
 from typing import Any, Callable
 
 from rich.console import Console
@@ -46,7 +46,11 @@ class GuardedDisplay:
         self._guarded(self.display.event, kind, text)
 
     def sample(self, sample: Sample, limits: EffectiveLimits) -> None:
-        self._guarded(self.display.sample, sample, limits)
+        if self.failure is None:  # _guarded written out: this runs on every reading
+            try:
+                self.display.sample(sample, limits)
+            except Exception as exc:  # noqa: BLE001 - any failure of the display stops the run safely
+                self._failed(exc)
 
     def _guarded(self, method: Callable[..., None], *args: Any) -> None:
         if self.failure is not None:
@@ -54,8 +58,11 @@ class GuardedDisplay:
         try:
             method(*args)
         except Exception as exc:  # noqa: BLE001 - any failure of the display stops the run safely
-            self.failure = f"progress display failed: {exc!r}"
-            self._fault = Trip(self.failure)
+            self._failed(exc)
+
+    def _failed(self, exc: Exception) -> None:
+        self.failure = f"progress display failed: {exc!r}"
+        self._fault = Trip(self.failure)
 
 
 # Said once, the first time the terminal shows U' (common practice: the mean-value voltmeter of the
@@ -72,7 +79,7 @@ class Progress:
         self.console = Console(stderr=True, highlight=False)
         self.quiet = quiet
         self.live: Live | None = None
-        self._last = 0.0
+        self._last = -math.inf  # bay time of the reading last shown
         self._step = ""
         self._stage = ""
         self._mark = 0
@@ -110,10 +117,11 @@ class Progress:
             self._explain_u_mean()
 
     def sample(self, sample: Sample, limits: EffectiveLimits) -> None:
-        now = time.monotonic()
-        if self.live is None or now - self._last < REFRESH_S:
+        """The live panel, rebuilt at most every REFRESH_S of the readings' own (bay) time: the
+        cost per reading is one comparison, and what is shown does not depend on the host."""
+        if self.live is None or self._last <= sample.t < self._last + REFRESH_S:
             return
-        self._last = now
+        self._last = sample.t
         self._explain_u_mean()
         self.live.update(self._table(sample, limits))
 

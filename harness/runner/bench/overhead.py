@@ -13,7 +13,11 @@ its samples, inside its time, so its store work is counted in it and never in a 
 The raw side is what a lab script does: the resource's ``query`` of the same snapshot command
 and ``float`` of the fields. A third side, the harness's driver alone (``snapshot()``: its
 transport and its parse, with the special-value checks), splits the harness's time into the
-instrument's and the loop's own (``loop_us_per_reading``).
+instrument's and the loop's own (``loop_us_per_reading``). A fourth, the driver followed by
+5 us of busy work, shows what the host charges for any work at all between two queries
+(``any_work_ratio``): on a loopback socket the simulated instrument's thread, given a gap, falls
+asleep and must be woken (tens of microseconds on a virtual machine), a cost no loop that does
+something per reading avoids and that a real instrument's millisecond replies would hide.
 
 Within each round the sides take turns in blocks of a few dozen readings, the order reversed
 every turn, so that a change of the machine's load (a shared host) weighs on all alike; the
@@ -37,6 +41,7 @@ from typing import Any, Callable, Iterator
 ROUNDS = 20
 READINGS_PER_ROUND = 2000
 BLOCK = 50  # readings per turn of a side within a round
+ANY_WORK_S = 5e-6  # the "any work" side: this much busy work between two queries
 TARGET_RATIO = 1.05
 
 
@@ -123,8 +128,14 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
         def raw_reading() -> None:
             [float(v) for v in raw.query(query).replace(",", ";").split(";")]  # type: ignore[attr-defined]
 
+        def any_work_reading() -> None:  # the driver, then a few microseconds of work before the next query
+            analyser.snapshot()
+            until = time.perf_counter() + ANY_WORK_S
+            while time.perf_counter() < until:
+                pass
+
         sides = {"raw": (raw_reading, None), "harness": (harness_reading, run.store.flush),
-                 "driver": (analyser.snapshot, None)}
+                 "driver": (analyser.snapshot, None), "any_work": (any_work_reading, None)}
         us = _alternating(sides, rounds, n)
         raw.close()
         rm.close()
@@ -137,6 +148,7 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
             "harness_us_per_reading": round(harness_us, 1),
             "driver_us_per_reading": round(driver_us, 1),
             "loop_us_per_reading": round(harness_us - driver_us, 1),
+            "any_work_ratio": round(statistics.median(a / r for r, a in zip(us["raw"], us["any_work"])), 3),
             "readings_per_second": round(1e6 / harness_us, 1),
             "rounds": rounds, "readings_per_round": n, "target_ratio": TARGET_RATIO,
             "sim_analyser_us_per_update": round(_sim_analyser_us_per_update(), 2)}

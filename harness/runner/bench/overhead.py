@@ -103,7 +103,7 @@ def _run_on(resources: dict[str, str], folder: Path) -> Iterator[Any]:
 def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[str, Any]:
     import pyvisa
 
-    from harness.runner.steps.ramp import _settled, _stop_before_current_limit, measured
+    from harness.runner.steps.ramp import SETTLED_WINDOW_FACTOR, _settled, _stop_before_current_limit, measured
 
     with served_bay() as resources, tempfile.TemporaryDirectory(prefix="harness-bench-overhead-") as scratch, \
             _run_on(resources, Path(scratch)) as run:
@@ -114,6 +114,7 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
         applied: list[tuple[float, float]] = []
         previous: list[Any] = [None]
         target = 0.5 * run.supervisor.limits.voltage
+        window = SETTLED_WINDOW_FACTOR * run.measure_averaging  # the ramp's own settling window
 
         def harness_reading() -> None:
             s = run.read()
@@ -123,7 +124,7 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
             if not applied or s.u_source != applied[-1][1]:
                 applied.append((s.t, s.u_source))
             del applied[:-20]
-            _settled(applied, 0.0015, 0.1)
+            _settled(applied, 0.0015, window)
 
         def raw_reading() -> None:
             [float(v) for v in raw.query(query).replace(",", ";").split(";")]  # type: ignore[attr-defined]
@@ -177,7 +178,7 @@ def _sim_analyser_us_per_update(n: int = 300) -> float:
     return (time.perf_counter() - began) / n * 1e6
 
 
-Side = tuple[Callable[[], Any], "Callable[[], None] | None"]
+Side = tuple[Callable[[], Any], Callable[[], None] | None]
 
 
 def _alternating(sides: dict[str, Side], rounds: int, n: int, block: int = BLOCK) -> dict[str, list[float]]:

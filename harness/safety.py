@@ -86,21 +86,26 @@ class Supervisor:
     def check_reading(self, sample: Sample, age: float) -> None:
         """Every phase against the limits (a current limit is a limit on each line current), the
         total power, the energised time; ``age`` is how long the query took (bay s)."""
-        t, n = sample.t, len(sample.phases)
-        for k, ph in enumerate(sample.phases):
-            if not (math.isfinite(ph.u_rms) and math.isfinite(ph.u_mean) and math.isfinite(ph.i_rms)
-                    and math.isfinite(ph.p)):
+        t, phases = sample.t, sample.phases
+        n = len(phases)
+        isfinite = math.isfinite
+        for k, ph in enumerate(phases):
+            if not (isfinite(ph.u_rms) and isfinite(ph.u_mean) and isfinite(ph.i_rms) and isfinite(ph.p)):
                 name = phase_name(k, n)
                 raise ReadingFault("reading is not a number" + (f" on phase {name}" if name else ""),
                                    step=self.step, time=t, phase=name or None)
         if age > self.checks.late_after:
             raise ReadingFault("reading late", "time", age, self.checks.late_after, self.step, t)
-        for k, ph in enumerate(sample.phases):
-            self._check_bounds(max(ph.u_rms, ph.u_mean), abs(ph.i_rms), phase_name(k, n))
-        if abs(sample.p) > self.limits.power:
-            raise self.trip("power", abs(sample.p), self.limits.power)
+        limits = self.limits
+        voltage, current = limits.voltage, limits.current
+        for k, ph in enumerate(phases):
+            u, i = max(ph.u_rms, ph.u_mean), abs(ph.i_rms)
+            if u > voltage or i > current:  # the trip, named by phase
+                self._check_bounds(u, i, phase_name(k, n))
+        if abs(sample.p) > limits.power:
+            raise self.trip("power", abs(sample.p), limits.power)
         self._check_time(t)
-        self._check_stale(sample.phases, t)
+        self._check_stale(phases, t)
 
     def _check_bounds(self, u: float, i: float, phase: str) -> None:
         if u > self.limits.voltage:

@@ -43,6 +43,29 @@ class Clock:
         return bay_seconds / self.time_scale
 
 
+class Cadence:
+    """Readings at a fixed interval: the n-th wait ends ``n * interval`` bay seconds after the
+    cadence began, so the time a reading itself takes (its queries, the store, the checks) comes
+    out of the interval instead of adding to it. After a reading that overran its slot (it took
+    longer than the interval) the next follows at once and the schedule goes on from there:
+    readings never come in a burst to catch up, and start to start they are never closer than
+    the interval (but for the host's sleep jitter on a real clock)."""
+
+    def __init__(self, clock: Clock, interval: float):
+        self.clock = clock
+        self.interval = interval
+        self._due = clock.now()
+
+    def wait(self) -> None:
+        now = self.clock.now()
+        due = self._due + self.interval
+        if due > now:
+            self.clock.sleep(due - now)
+            self._due = due
+        else:
+            self._due = now
+
+
 class SteppedClock(Clock):
     """A clock that moves only when its owner sleeps: bay time then depends on the calls made,
     never on how fast the host runs them.

@@ -126,13 +126,18 @@ class Run:
         self.supervisor = Supervisor(limits, self.station.readings, self.clock)
         if self.sequence.transformer.phases == 3:
             self.supervisor.setpoint_factor = SQRT3  # a three-phase source is set line-to-neutral
+        # What every reading needs and a run does not change: looked up once, not per reading.
+        m = self.station.measurement
+        self._vt, self._ct = m.vt_ratio, m.ct_ratio
+        self._late_floor = SIMULATED_LATE_FLOOR_REAL_S if self.station.simulated else LATE_FLOOR_REAL_S
+        self._faults = [part.pending_fault for part in (self.store, self.progress) if hasattr(part, "pending_fault")]
 
     # -- faults of the run's own parts ------------------------------------------------------------
     def raise_pending(self) -> None:
         """A failure of the store or of the progress display, held where it happened (so that it
         never breaks the safe path), is raised here, at the run's next step forward."""
-        for part in (self.store, self.progress):
-            fault = part.pending_fault() if hasattr(part, "pending_fault") else None
+        for pending in self._faults:
+            fault = pending()
             if fault is not None:
                 fault.step = fault.step or self.step_title
                 fault.time = fault.time if fault.time is not None else self.clock.now()
@@ -213,24 +218,28 @@ class Run:
                 raise
             raise trip from exc
         t1 = self.clock.now()
-        m = self.station.measurement
-        vt, ct = m.vt_ratio, m.ct_ratio
-        phases = tuple(Phase(ch.u_rms * vt, ch.u_mean * vt, ch.i_rms * ct, ch.p * vt * ct) for ch in snap.channels)
-        freq = snap.channels[0].freq
-        floor = SIMULATED_LATE_FLOOR_REAL_S if self.station.simulated else LATE_FLOOR_REAL_S
-        age = t1 - t0 if self.clock.real(t1 - t0) > floor else 0.0
+        vt, ct = self._vt, self._ct
+        channels = snap.channels
+        if len(channels) == 1:
+            ch = channels[0]
+            phases: tuple[Phase, ...] = (Phase(ch.u_rms * vt, ch.u_mean * vt, ch.i_rms * ct, ch.p * vt * ct),)
+        else:
+            phases = tuple(Phase(ch.u_rms * vt, ch.u_mean * vt, ch.i_rms * ct, ch.p * vt * ct) for ch in channels)
+        freq = channels[0].freq
+        age = t1 - t0 if self.clock.real(t1 - t0) > self._late_floor else 0.0
         first = -1
+        add, run_id, index, setpoint = self.store.add_sample, self.run_id, self.step_index, self.setpoint
         for channel, ph in enumerate(phases, start=1):  # every channel kept, the one that trips too
-            sid = self.store.add_sample(self.run_id, self.step_index, t1, channel, ph.u_rms, ph.u_mean, ph.i_rms,
-                                        ph.p, freq, self.setpoint, tag)
+            sid = add(run_id, index, t1, channel, ph.u_rms, ph.u_mean, ph.i_rms, ph.p, freq, setpoint, tag)
             first = sid if first < 0 else first
-        sample = combine(first, t1, phases, freq, self.setpoint)
+        sample = combine(first, t1, phases, freq, setpoint)
         before = self.last_sample
         self.supervisor.check_reading(sample, age)
-        fault = unbalance(sample, self.supervisor.limits, self.wiring is not None and self.wiring.other == "short",
-                          self.step_title)
-        if fault is not None:
-            raise fault
+        if len(phases) == 3:
+            fault = unbalance(sample, self.supervisor.limits,
+                              self.wiring is not None and self.wiring.other == "short", self.step_title)
+            if fault is not None:
+                raise fault
         self.last_sample = sample
         self._watch_temperature(t1)
         self._watch_source(t1, before)

@@ -5,7 +5,6 @@ A live rich panel on a terminal; plain event lines otherwise (CI, pipes, --json 
 
 from __future__ import annotations
 
-import time
 from typing import Any, Callable
 
 from rich.console import Console
@@ -18,7 +17,7 @@ from harness.config.checks import EffectiveLimits
 from harness.runner.seams import Display
 from harness.safety import Trip
 
-REFRESH_S = 0.1
+REFRESH_PER_S = 8  # the live panel's redraws per second (the display's own timing, nothing else)
 
 
 class GuardedDisplay:
@@ -46,7 +45,11 @@ class GuardedDisplay:
         self._guarded(self.display.event, kind, text)
 
     def sample(self, sample: Sample, limits: EffectiveLimits) -> None:
-        self._guarded(self.display.sample, sample, limits)
+        if self.failure is None:  # _guarded written out: this runs on every reading
+            try:
+                self.display.sample(sample, limits)
+            except Exception as exc:  # noqa: BLE001 - any failure of the display stops the run safely
+                self._failed(exc)
 
     def _guarded(self, method: Callable[..., None], *args: Any) -> None:
         if self.failure is not None:
@@ -54,8 +57,11 @@ class GuardedDisplay:
         try:
             method(*args)
         except Exception as exc:  # noqa: BLE001 - any failure of the display stops the run safely
-            self.failure = f"progress display failed: {exc!r}"
-            self._fault = Trip(self.failure)
+            self._failed(exc)
+
+    def _failed(self, exc: Exception) -> None:
+        self.failure = f"progress display failed: {exc!r}"
+        self._fault = Trip(self.failure)
 
 
 # Said once, the first time the terminal shows U' (common practice: the mean-value voltmeter of the
@@ -72,7 +78,8 @@ class Progress:
         self.console = Console(stderr=True, highlight=False)
         self.quiet = quiet
         self.live: Live | None = None
-        self._last = 0.0
+        self._latest: tuple[Sample, EffectiveLimits] | None = None  # what the live panel shows next
+        self._render_failure: Exception | None = None
         self._step = ""
         self._stage = ""
         self._mark = 0
@@ -80,7 +87,8 @@ class Progress:
 
     def __enter__(self) -> "Progress":
         if self.console.is_terminal and not self.quiet:
-            self.live = Live(self._table(None, None), console=self.console, refresh_per_second=8, transient=True)
+            self.live = Live(console=self.console, refresh_per_second=REFRESH_PER_S, transient=True,
+                             get_renderable=self._render)
             self.live.__enter__()
         return self
 
@@ -110,12 +118,26 @@ class Progress:
             self._explain_u_mean()
 
     def sample(self, sample: Sample, limits: EffectiveLimits) -> None:
-        now = time.monotonic()
-        if self.live is None or now - self._last < REFRESH_S:
+        """Keep the reading for the live panel, which the display's own refresh draws
+        (REFRESH_PER_S times a second, whatever the rate of readings): the cost per reading is
+        keeping it. A panel that failed to draw fails here, at the next reading, so that the
+        run's GuardedDisplay stops the run as for any failure of the display."""
+        if self.live is None:
             return
-        self._last = now
-        self._explain_u_mean()
-        self.live.update(self._table(sample, limits))
+        if self._render_failure is not None:
+            raise self._render_failure
+        self._latest = (sample, limits)
+        if not self._told_u_mean:
+            self._explain_u_mean()
+
+    def _render(self) -> Table:
+        """The live panel, drawn on the display's refresh thread; a failure is held for sample()."""
+        try:
+            latest = self._latest
+            return self._table(*latest) if latest is not None else self._table(None, None)
+        except Exception as exc:  # noqa: BLE001 - raised at the next reading, on the run's thread
+            self._render_failure = exc
+            return Table.grid()
 
     def _explain_u_mean(self) -> None:
         if not self._told_u_mean:

@@ -69,7 +69,7 @@ class Recorder:
     # -- the store's writing methods ------------------------------------------------------------
     def add_sample(self, run_id: str, step_index: int, t: float, channel: int, u_rms: float, u_mean: float,
                    i_rms: float, p: float, freq: float, setpoint: float, tag: str | None = None) -> int:
-        if not self.failed:
+        if self.failure is None:
             try:
                 self._last_id = self.store.add_sample(run_id, step_index, t, channel, u_rms, u_mean, i_rms, p,
                                                       freq, setpoint, tag)

@@ -54,6 +54,7 @@ _INSERTS = {"sqlite": sqlite_dialect.insert, "postgresql": pg_dialect.insert}
 _LISTED = ("run_id", "status", "samples", "started", "unit", "exit_code", "station_id", "station_name")
 _LIVENESS = ("pid", "host", "process_token")
 _RUNS, _SAMPLES = schema.runs, schema.samples
+_INF = math.inf
 
 
 class _Flusher(threading.Thread):
@@ -216,10 +217,17 @@ class Store:
                    setpoint: float | None, tag: str | None = None) -> int:
         """Buffer one raw sample; return its id (0, 1, 2, ... within the run)."""
         counter = self._counters.get(run_id) or self._open_counter(run_id)
-        values = (rows.index(step_index, "step index"), rows.bay_time(t), time.time(),
-                  rows.index(channel, "channel"), rows.real(u_rms, "u_rms"), rows.real(u_mean, "u_mean"),
-                  rows.real(i_rms, "i_rms"), rows.real(p, "p"), rows.real(freq, "freq"),
-                  rows.real(setpoint, "setpoint"), rows.text(tag, "tag", optional=True))
+        if (type(step_index) is int and type(channel) is int and step_index >= 0 and channel >= 0
+                and type(t) is float and -_INF < t < _INF and (tag is None or type(tag) is str)
+                and type(u_rms) is type(u_mean) is type(i_rms) is type(p) is type(freq) is type(setpoint) is float):
+            # The reading loop's case, checked in one expression: what the checks below accept as is.
+            values: tuple[Any, ...] = (step_index, t, time.time(), channel, u_rms, u_mean, i_rms, p, freq,
+                                       setpoint, tag)
+        else:
+            values = (rows.index(step_index, "step index"), rows.bay_time(t), time.time(),
+                      rows.index(channel, "channel"), rows.real(u_rms, "u_rms"), rows.real(u_mean, "u_mean"),
+                      rows.real(i_rms, "i_rms"), rows.real(p, "p"), rows.real(freq, "freq"),
+                      rows.real(setpoint, "setpoint"), rows.text(tag, "tag", optional=True))
         sample_id = next(counter)
         if not self._pending:
             self._oldest = time.monotonic()

@@ -9,8 +9,11 @@ resource that raises them.
 
 from __future__ import annotations
 
+import contextlib
 import socket
 import time
+import warnings
+from typing import Iterator
 
 import pytest
 from pyvisa import constants
@@ -55,19 +58,30 @@ def test_each_failure_maps_to_its_instrument_error(exc: BaseException, expected:
 
 
 class _StubResource:
-    """Stands in for a pyvisa resource whose every operation raises ``exc``."""
+    """Stands in for a pyvisa resource whose VISA library raises ``exc`` on every write and read
+    (the transport talks through the library's calls on the resource's session)."""
+
+    session = 7
 
     def __init__(self, exc: BaseException):
         self.exc = exc
         self.closed = False
+        self.visalib = self
+        self.ignoring: set[object] = set()
 
-    def query(self, command: str) -> str:
+    def write(self, session: int, data: bytes) -> int:
+        assert session == self.session and data.endswith(b"\n")
         raise self.exc
 
-    write = query
-
-    def read(self) -> str:
+    def read(self, session: int, count: int) -> tuple[bytes, object]:
+        assert session == self.session
         raise self.exc
+
+    @contextlib.contextmanager
+    def ignore_warning(self, session: int, *codes: object) -> Iterator[None]:
+        self.ignoring.update(codes)
+        yield
+        self.ignoring.difference_update(codes)
 
     def close(self) -> None:
         self.closed = True
@@ -101,6 +115,7 @@ def test_pyvisa_transport_maps_every_operation(exc: BaseException, expected: typ
     assert info.value.command == (None if operation == "read" else "SOUR:VOLT 10")
     assert isinstance(info.value.__cause__, type(exc))
     assert rm.opened[0].closed  # the failed session is dropped, never reused
+    assert not rm.opened[0].ignoring  # and the warnings ignored on it are back as they were
     transport.close()
 
 
@@ -223,6 +238,22 @@ def test_instrument_over_socket_round_trip_and_garbled_snapshot(line_server) -> 
         assert server.received[0][1].decode() == analyser.snapshot_command
     finally:
         analyser.close()
+
+
+def test_reply_longer_than_one_chunk_is_read_whole_without_warnings(line_server, monkeypatch) -> None:
+    # The library fills one chunk and says so (a "success" code that pyvisa warns about unless
+    # told to ignore it); the transport reads on until the newline, and nothing is warned.
+    reply = ";".join(f"{k}.{k:03d}E+00" for k in range(40))
+    server = line_server(lambda conn, line: reply.encode() + b"\n")
+    monkeypatch.setattr("drivers.transport.CHUNK_BYTES", 16)
+    transport = PyvisaTransport(server.resource, timeout_s=GUARD_S, name="analyser")
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error")
+            assert transport.query("MEAS?") == reply
+            assert transport.query("MEAS?") == reply  # the next reply starts clean
+    finally:
+        transport.close()
 
 
 def test_closed_transport_refuses_work(line_server) -> None:

@@ -56,3 +56,32 @@ def test_a_benchmark_away_from_a_checkout_says_so_without_a_traceback(monkeypatc
     assert cli.main(["bench", "startup"]) == 2
     err = capsys.readouterr().err
     assert err.startswith("harness: the example sequences are not in ") and "Traceback" not in err
+
+
+def test_overhead_sides_alternate_in_blocks_and_the_commit_counts_whole(monkeypatch):
+    """bench overhead's arithmetic on a clock moved only by the sides themselves (no host timing):
+    turns reverse (A B B A ...), a side's figure is its median block, and the harness's closing
+    commit is added to its round whole."""
+    from harness.runner.bench import overhead
+
+    now = [0.0]
+    monkeypatch.setattr(overhead.time, "perf_counter", lambda: now[0])
+    calls: list[str] = []
+
+    def side(name: str, cost: float):
+        def fn() -> None:
+            calls.append(name)
+            now[0] += cost
+        return fn
+
+    def commit() -> None:
+        calls.append("commit")
+        now[0] += 40.0
+
+    us = overhead._alternating({"raw": (side("raw", 1.0), None), "harness": (side("harness", 2.0), commit)},
+                               rounds=3, n=20, block=5)
+    assert us["raw"] == [1e6] * 3                           # 1 s per reading, every round
+    assert us["harness"] == [(2.0 * 5 + 40.0 / 4) / 5 * 1e6] * 3  # its blocks plus the commit spread over them
+    timed = [c for c in calls[100:] if c != "commit"]       # after the 50 warm-up pairs
+    assert timed[:20] == ["raw"] * 5 + ["harness"] * 10 + ["raw"] * 5
+    assert calls.count("commit") == 3 and len(timed) == 3 * 4 * 2 * 5

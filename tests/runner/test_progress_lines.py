@@ -48,3 +48,40 @@ def test_a_hold_shows_its_progress_in_plain_lines():
     for pct in ("25 %", "50 %", "75 %", "100 %"):
         assert f"warm the winding: {pct}" in text, text
     assert text.count("warm the winding: ") == 4
+
+
+def terminal_progress() -> tuple[Progress, io.StringIO]:
+    progress = Progress()
+    out = io.StringIO()
+    progress.console = Console(file=out, width=LINE_WIDTH, force_terminal=True, highlight=False)
+    return progress, out
+
+
+def test_the_live_panel_draws_the_latest_reading_at_its_own_refresh():
+    progress, out = terminal_progress()
+    with progress:
+        assert progress.live is not None
+        for volts in (100.0, 200.0, 314.159):  # readings faster than the panel redraws: only the latest is drawn
+            progress.sample(combine(0, volts, (Phase(volts, volts, 1.0, 10.0),), 50.0, volts), LIMITS)
+        progress.live.refresh()
+        assert "U 314.2 V" in out.getvalue()
+
+
+def test_a_panel_that_fails_to_draw_stops_the_run_at_the_next_reading(monkeypatch):
+    from harness.runner import progress as module
+    from harness.runner.progress import GuardedDisplay
+
+    def broken(s, limits):
+        raise ValueError("cannot draw")
+
+    monkeypatch.setattr(module, "live_lines", broken)
+    progress, _ = terminal_progress()
+    guarded = GuardedDisplay(progress)
+    reading = combine(0, 1.0, (Phase(1.0, 1.0, 1.0, 1.0),), 50.0, 1.0)
+    with progress:
+        guarded.sample(reading, LIMITS)
+        assert progress.live is not None
+        progress.live.refresh()  # drawn on the display's thread: the failure is held ...
+        guarded.sample(reading, LIMITS)  # ... and raised at the next reading, into the guard
+    fault = guarded.pending_fault()
+    assert fault is not None and "cannot draw" in str(fault)

@@ -126,6 +126,9 @@ def test_bad_instrument_lists_are_refused(store, instruments, message):
 @pytest.mark.parametrize("args, message", [
     ((0, "t", 0, 1.0, 1.0, 1.0, 1.0, 50.0, 1.0), "t \\(bay seconds\\)"),
     ((0, float("inf"), 0, 1.0, 1.0, 1.0, 1.0, 50.0, 1.0), "finite"),
+    ((0, float("nan"), 0, 1.0, 1.0, 1.0, 1.0, 50.0, 1.0), "finite"),
+    ((0, 0.0, 0, 1.0, 1.0, 1.0, 1.0, 50.0, 1.0, 5), "tag"),
+    ((True, 0.0, 0, 1.0, 1.0, 1.0, 1.0, 50.0, 1.0), "step index"),
     ((-1, 0.0, 0, 1.0, 1.0, 1.0, 1.0, 50.0, 1.0), "step index"),
     ((0, 0.0, 1.5, 1.0, 1.0, 1.0, 1.0, 50.0, 1.0), "channel"),
     ((0, 0.0, 0, "415 V", 1.0, 1.0, 1.0, 50.0, 1.0), "u_rms"),

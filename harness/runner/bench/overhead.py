@@ -1,15 +1,30 @@
 """The whole reading loop against a raw pyvisa query-and-parse loop on the same instrument.
 
-The simulated bay runs in its own process, as an instrument would: the two loops then share
-nothing but the socket, and the server's work weighs on both alike. The harness side is
-``Run.read()`` as every energising step calls it, with the source on at zero volts: analyser
-snapshot and parse, wiring ratios, the store (its background commits included), the
-supervisor's limit checks, the winding-temperature and source-output watches when due, the
-progress display, then the ramp controller's own per-reading work (the measured quantity and its
-settling test). The raw side is what a lab script does: ``query`` the same snapshot command and
-``float`` the fields. The two take turns in rounds (A B B A A B ...) so that a drift of the
-machine's speed weighs on both; the ratio of each pair of neighbouring rounds is one figure, and
-the median of those and their spread (largest less smallest) are reported.
+The simulated bay runs in its own process, as an instrument would: the loops then share nothing
+but the socket, and the server's work weighs on each alike. The harness side is ``Run.read()``
+as every energising step calls it, on the ramp's analyser settings with the source on at zero
+volts, and with the parts a run gives it (the store behind the run's ``Recorder``, the progress
+display behind ``GuardedDisplay``): analyser snapshot and parse, wiring ratios, the store, the
+supervisor's limit checks on every phase, the winding-temperature and source-output watches
+when due, the progress display, then the ramp controller's own per-reading work (the measured
+quantity, the no-load current guard, the settling test). Each harness round ends by committing
+its samples, inside its time, so its store work is counted in it and never in a neighbour's.
+
+The raw side is what a lab script does: the resource's ``query`` of the same snapshot command
+and ``float`` of the fields. A third side, the harness's driver alone (``snapshot()``: its
+transport and its parse, with the special-value checks), splits the harness's time into the
+instrument's and the loop's own (``loop_us_per_reading``). A fourth, the driver followed by
+5 us of busy work, shows what the host charges for any work at all between two queries
+(``any_work_ratio``): on a loopback socket the simulated instrument's thread, given a gap, falls
+asleep and must be woken (tens of microseconds on a virtual machine), a cost no loop that does
+something per reading avoids and that a real instrument's millisecond replies would hide.
+
+Within each round the sides take turns in blocks of a few dozen readings, the order reversed
+every turn, so that a change of the machine's load (a shared host) weighs on all alike; the
+figure of a side in a round is its median block (a stall of the shared host falls on one block),
+plus, for the harness, its commit of the round's samples whole. The ratio of the harness's figure
+to the raw loop's in a round is one figure, and the median of the rounds' figures, their spread
+(largest less smallest) and their interquartile range are reported.
 """
 
 from __future__ import annotations
@@ -23,8 +38,10 @@ import time
 from pathlib import Path
 from typing import Any, Callable, Iterator
 
-ROUNDS = 8
-READINGS_PER_ROUND = 1000
+ROUNDS = 20
+READINGS_PER_ROUND = 2000
+BLOCK = 50  # readings per turn of a side within a round
+ANY_WORK_S = 5e-6  # the "any work" side: this much busy work between two queries
 TARGET_RATIO = 1.05
 
 
@@ -55,7 +72,9 @@ def _run_on(resources: dict[str, str], folder: Path) -> Iterator[Any]:
     from harness.runner.context import Run
     from harness.runner.operators import AnsweringOperator
     from harness.runner.prepare import RunOptions, prepare
-    from harness.runner.progress import Progress
+    from harness.runner.progress import GuardedDisplay, Progress
+    from harness.runner.recorder import Recorder
+    from harness.runner.steps.ramp import RAMP_AVERAGING_S
     from harness.runner.sim_station import sim_station
     from harness.store import Store
 
@@ -64,50 +83,74 @@ def _run_on(resources: dict[str, str], folder: Path) -> Iterator[Any]:
     with Store(folder) as store, Progress(quiet=False) as progress:
         run_id = store.begin_run(unit="bench", lab=station.lab, station_name=station.name, sequence_text="",
                                  station_text=station_text, software_version="bench", simulated=None)
+        recorder = Recorder(store, run_id)
         bay = open_bay(station)
         try:
-            run = Run(run_id, prepared.sequence, station, Clock(1.0), bay, store, progress,
+            run = Run(run_id, prepared.sequence, station, Clock(1.0), bay, recorder, GuardedDisplay(progress),
                       AnsweringOperator(bay.bay_control))
-            store.begin_step(run_id, 0, "hold", "overhead")
+            recorder.begin_step(run_id, 0, "ramp", "overhead")
             run.step_index, run.step_title = 0, "overhead"
+            run.range_for_limits()
+            run.use_averaging(RAMP_AVERAGING_S)
             run.energise()
             yield run
         finally:
             run.make_safe()
             bay.close()
+            recorder.close()
 
 
 def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[str, Any]:
     import pyvisa
 
-    from harness.runner.steps.ramp import _settled, measured
+    from harness.runner.steps.ramp import SETTLED_WINDOW_FACTOR, _settled, _stop_before_current_limit, measured
 
     with served_bay() as resources, tempfile.TemporaryDirectory(prefix="harness-bench-overhead-") as scratch, \
             _run_on(resources, Path(scratch)) as run:
         rm = pyvisa.ResourceManager("@py")
         raw = rm.open_resource(resources["analyser"], read_termination="\n", write_termination="\n", timeout=2000)
-        query = run.bay.analyser.snapshot_command
+        analyser = run.bay.analyser
+        query = analyser.snapshot_command
         applied: list[tuple[float, float]] = []
+        previous: list[Any] = [None]
+        target = 0.5 * run.supervisor.limits.voltage
+        window = SETTLED_WINDOW_FACTOR * run.measure_averaging  # the ramp's own settling window
 
         def harness_reading() -> None:
             s = run.read()
-            measured(s, "current")
-            applied.append((s.t, s.u_rms))
+            measured(s, "voltage")
+            _stop_before_current_limit(run, previous[0], s, target, target)
+            previous[0] = s
+            if not applied or s.u_source != applied[-1][1]:
+                applied.append((s.t, s.u_source))
             del applied[:-20]
-            _settled(applied, 0.0015, 0.4)
+            _settled(applied, 0.0015, window)
 
         def raw_reading() -> None:
             [float(v) for v in raw.query(query).replace(",", ";").split(";")]  # type: ignore[attr-defined]
 
-        raw_us, harness_us = _alternating(raw_reading, harness_reading, rounds, n)
+        def any_work_reading() -> None:  # the driver, then a few microseconds of work before the next query
+            analyser.snapshot()
+            until = time.perf_counter() + ANY_WORK_S
+            while time.perf_counter() < until:
+                pass
+
+        sides = {"raw": (raw_reading, None), "harness": (harness_reading, run.store.flush),
+                 "driver": (analyser.snapshot, None), "any_work": (any_work_reading, None)}
+        us = _alternating(sides, rounds, n)
         raw.close()
         rm.close()
-    ratios = [h / r for r, h in zip(raw_us, harness_us)]
+    ratios = [h / r for r, h in zip(us["raw"], us["harness"])]
+    quartiles = statistics.quantiles(ratios, n=4) if len(ratios) > 1 else [ratios[0]] * 3
+    harness_us, driver_us = statistics.median(us["harness"]), statistics.median(us["driver"])
     return {"ratio": round(statistics.median(ratios), 3), "ratio_spread": round(max(ratios) - min(ratios), 3),
-            "ratios": [round(x, 3) for x in ratios],
-            "raw_pyvisa_us_per_reading": round(statistics.median(raw_us), 1),
-            "harness_us_per_reading": round(statistics.median(harness_us), 1),
-            "readings_per_second": round(1e6 / statistics.median(harness_us), 1),
+            "ratio_iqr": round(quartiles[2] - quartiles[0], 3), "ratios": [round(x, 3) for x in ratios],
+            "raw_pyvisa_us_per_reading": round(statistics.median(us["raw"]), 1),
+            "harness_us_per_reading": round(harness_us, 1),
+            "driver_us_per_reading": round(driver_us, 1),
+            "loop_us_per_reading": round(harness_us - driver_us, 1),
+            "any_work_ratio": round(statistics.median(a / r for r, a in zip(us["raw"], us["any_work"])), 3),
+            "readings_per_second": round(1e6 / harness_us, 1),
             "rounds": rounds, "readings_per_round": n, "target_ratio": TARGET_RATIO,
             "sim_analyser_us_per_update": round(_sim_analyser_us_per_update(), 2)}
 
@@ -135,17 +178,36 @@ def _sim_analyser_us_per_update(n: int = 300) -> float:
     return (time.perf_counter() - began) / n * 1e6
 
 
-def _alternating(a: Callable[[], None], b: Callable[[], None], rounds: int, n: int) -> tuple[list[float], list[float]]:
-    """Per-call microseconds of a and b in each round, the order alternating round by round."""
-    times: dict[str, list[float]] = {"a": [], "b": []}
+Side = tuple[Callable[[], Any], Callable[[], None] | None]
+
+
+def _alternating(sides: dict[str, Side], rounds: int, n: int, block: int = BLOCK) -> dict[str, list[float]]:
+    """Per-reading microseconds of each side in each round. Within a round the sides take turns
+    in blocks of ``block`` readings, the order reversed every turn (A B C C B A ...), so that a
+    change of the machine's load falls on every side alike; a side's figure for the round is its
+    median block, so that a stall of the shared host (another process holding the core for tens
+    of milliseconds) falls on one block and not on the figure. A side's closing call (the
+    harness's commit of the round's samples) is added to its round whole, never thinned."""
+    times: dict[str, list[float]] = {name: [] for name in sides}
     for _ in range(50):
-        a()
-        b()
-    for r in range(rounds):
-        order = (("a", a), ("b", b)) if r % 2 == 0 else (("b", b), ("a", a))
-        for key, fn in order:
-            t0 = time.perf_counter()
-            for _ in range(n):
-                fn()
-            times[key].append((time.perf_counter() - t0) / n * 1e6)
-    return times["a"], times["b"]
+        for fn, _close in sides.values():
+            fn()
+    order = list(sides.items())
+    clock = time.perf_counter
+    turns = max(1, n // block)
+    for _ in range(rounds):
+        blocks: dict[str, list[float]] = {name: [] for name in sides}
+        for turn in range(turns):
+            for name, (fn, _close) in (order if turn % 2 == 0 else order[::-1]):
+                t0 = clock()
+                for _ in range(block):
+                    fn()
+                blocks[name].append(clock() - t0)
+        for name, (_fn, close) in order:
+            closing = 0.0
+            if close is not None:
+                t0 = clock()
+                close()
+                closing = clock() - t0
+            times[name].append((statistics.median(blocks[name]) + closing / turns) / block * 1e6)
+    return times

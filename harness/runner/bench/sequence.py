@@ -7,7 +7,9 @@ steps ask for and physics allows, with no allowance for settling or control:
 
 - every change of the source voltage at the bay's slew rate: from zero to each ramp's end
   voltage, and from one sweep point to the next (the voltages the run actually reached), and
-  from zero to the ratio step's voltage on each tap;
+  from zero to the ratio step's voltage on each tap. The slew is the source's own, per phase:
+  a three-phase source is set line-to-neutral, so the line-to-line voltages the readings give
+  move sqrt 3 times as fast;
 - each measuring window the sequence asks for: ``readings`` x ``interval`` of every measure and
   of every sweep point, and every hold's duration;
 - the confirmation of de-energisation: one analyser update after the output is off.
@@ -28,6 +30,7 @@ ENDS = ("off", "safe-state")
 
 
 def bench_sequence(sequence: Path | str, time_scale: float | None = None) -> dict[str, Any]:
+    from harness.common.reading import SQRT3
     from harness.runner.prepare import RunOptions, prepare
     from harness.runner.run import execute
     from harness.store import Store
@@ -36,7 +39,8 @@ def bench_sequence(sequence: Path | str, time_scale: float | None = None) -> dic
     prepared = prepare(options)
     if prepared.scenario is None:
         raise ValueError("bench sequence runs on the built-in simulated bay")
-    slew = prepared.scenario.source.max_slew
+    # Line volts per second: the readings are line-to-line, a three-phase source slews line-to-neutral.
+    slew = prepared.scenario.source.max_slew * (SQRT3 if prepared.sequence.transformer.phases == 3 else 1.0)
     update = prepared.scenario.analyser.update_interval
     by_name = {(s.kind, s.title()): s for s in _flat(prepared.sequence.steps)}
     with tempfile.TemporaryDirectory(prefix="harness-bench-sequence-") as scratch, Store(Path(scratch)) as store:

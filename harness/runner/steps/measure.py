@@ -11,6 +11,7 @@ import numpy as np
 
 from harness.config.steps import Measure
 from harness.calc.reduce import window_stats
+from harness.common.clock import Cadence
 from harness.common.reading import QUANTITIES, Sample
 from harness.runner.context import MeasuredReading, Run
 from harness.runner.steps import register
@@ -28,8 +29,9 @@ def measure(run: Run, test: str, label: str, readings: int, interval: float, sta
     run.use_averaging(run.measure_averaging)
     if run.last_sample is not None:
         run.fit_ranges(run.last_sample)
+    cadence = Cadence(run.clock, interval)  # readings `interval` apart, start to start
     for _ in range(max_readings):
-        run.clock.sleep(interval)
+        cadence.wait()
         window.append(run.read(tag=test))
         if test == "load-loss":
             t = run.winding_temperature()

@@ -22,6 +22,7 @@ import numpy as np
 
 from drivers.tap_changer import TapChanger
 from harness.calc.ratio import declared_ratio, tap_factor, tap_name
+from harness.common.clock import Cadence
 from harness.config.checks import OPEN_WINDING
 from harness.config.steps import Ratio
 from harness.runner.context import Run
@@ -131,8 +132,9 @@ def read_tap(run: Run, step: Any, tap: int) -> dict[str, Any]:
     u_fed = max(ph.u_rms for ph in first.phases)
     run.bay.analyser.set_channel_voltage_range(RATIO_RANGE_HEADROOM * u_fed / expected / vt, open_ch)
     fed_v, open_v, lags = [], [], []
+    cadence = Cadence(run.clock, step.interval)  # readings `interval` apart, start to start
     for _ in range(step.readings):
-        run.clock.sleep(step.interval)
+        cadence.wait()
         run.read(tag="ratio")
         volts = np.array(run.bay.analyser.voltages(fed_ch + open_ch)) * vt
         fed, other = volts[:len(fed_ch)], volts[len(fed_ch):]

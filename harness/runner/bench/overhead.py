@@ -48,13 +48,15 @@ TARGET_RATIO = 1.05
 @contextlib.contextmanager
 def served_bay() -> Iterator[dict[str, str]]:
     """The default simulated bay served from a child process; its instruments' resource strings."""
+    from harness.sim.server import ROLES
+
     code = ("from harness.sim.server import serve_forever; from harness.sim.scenario import load_scenario; "
             "serve_forever(load_scenario('default'))")
     proc = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, text=True)
     try:
         assert proc.stdout is not None
         resources: dict[str, str] = {}
-        for _ in range(5):
+        for _ in ROLES:  # one line per instrument the bay serves
             role, resource = proc.stdout.readline().split()[:2]
             resources[role] = resource
         yield resources

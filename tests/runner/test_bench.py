@@ -85,3 +85,16 @@ def test_overhead_sides_alternate_in_blocks_and_the_commit_counts_whole(monkeypa
     timed = [c for c in calls[100:] if c != "commit"]       # after the 50 warm-up pairs
     assert timed[:20] == ["raw"] * 5 + ["harness"] * 10 + ["raw"] * 5
     assert calls.count("commit") == 3 and len(timed) == 3 * 4 * 2 * 5
+
+
+def test_the_overhead_benchmarks_bay_serves_every_instrument_the_station_names():
+    """bench overhead opens the simulated station: every role it names must be listening."""
+    from harness.runner.bench.overhead import served_bay
+    from harness.runner.sim_station import sim_station
+    from harness.sim.server import ROLES
+
+    with served_bay() as resources:
+        assert set(resources) == set(ROLES)
+        station, _ = sim_station(resources)
+        named = {role for role, spec in station.instruments if spec is not None}
+        assert named <= set(resources)

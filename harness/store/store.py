@@ -421,8 +421,22 @@ class Store:
         held while the caller works on a chunk, and memory stays bounded whatever the run's size.
         """
         names = rows.sample_column_names(columns)
-        for page in self.sample_pages(run_id, names, chunk):
-            yield rows.sample_columns(page, names)
+        # The numbers as one block of rows (no text among them), the tags of the chunk by a query
+        # of their own: most samples carry none, and a Python object per row costs more than the query.
+        numeric = tuple(n for n in names if n != "tag")
+        read = numeric if "id" in numeric else ("id", *numeric)
+        run_id = self.resolve(run_id)
+        for page in self.sample_pages(run_id, read, chunk):
+            found = rows.numeric_columns(page, read)
+            if "tag" in names:
+                ids = found["id"]
+                query = (select(_SAMPLES.c.id, _SAMPLES.c.tag)
+                         .where(_SAMPLES.c.run_id == run_id, _SAMPLES.c.id >= int(ids[0]),
+                                _SAMPLES.c.id <= int(ids[-1]), _SAMPLES.c.tag.is_not(None)).order_by(_SAMPLES.c.id))
+                with self._transaction() as conn:
+                    tagged = conn.execute(query).fetchall()
+                found["tag"] = rows.tag_column(len(ids), ids, tagged)
+            yield {name: found[name] for name in names}
 
     def sample_counts(self, run_id: str) -> dict[tuple[int, int], int]:
         """How many raw samples each (step, channel) of the run has (those without samples left out)."""
@@ -484,13 +498,16 @@ class Store:
         a chunk at a time."""
         run_id = self.resolve(run_id)
         target = export.target(path, run_id, "csv")
-        return export.write_csv((row for page in self.sample_pages(run_id) for row in page), target)
+        export.write_samples(self.sample_chunks(run_id), csv_path=target)
+        return target
 
     def export_parquet(self, run_id: str, path: str | Path) -> Path:
         """Write the run's raw samples as Parquet, streamed a chunk at a time; needs pyarrow."""
         export.require_pyarrow()
         run_id = self.resolve(run_id)
-        return export.write_parquet(self.sample_chunks(run_id), export.target(path, run_id, "parquet"))
+        target = export.target(path, run_id, "parquet")
+        export.write_samples(self.sample_chunks(run_id), parquet_path=target)
+        return target
 
     # -- inside -----------------------------------------------------------------------------------
 

@@ -54,7 +54,7 @@ def build_run(store: Any, samples: int) -> str:
     return run_id
 
 
-def _report_cost(samples: int) -> dict[str, float]:
+def _report_cost(samples: int) -> dict[str, Any]:
     from harness.store import Store
 
     with tempfile.TemporaryDirectory(prefix="harness-bench-report-") as scratch:
@@ -63,24 +63,47 @@ def _report_cost(samples: int) -> dict[str, float]:
         env = {**os.environ, "HARNESS_DATA": scratch}
         cost = run_child([sys.executable, "-m", "harness.cli", "report", run_id], env=env)
         written = {p.name: p.stat().st_size for p in (Path(scratch) / run_id).iterdir()}
-    figures: dict[str, Any] = {"wall_s": cost.wall_s, "cpu_s": cost.cpu_s, "peak_rss_mb": cost.peak_rss_mb}
-    return {**figures, "files": written}
+    return {"wall_s": cost.wall_s, "cpu_s": cost.cpu_s, "peak_rss_mb": cost.peak_rss_mb, "files": written}
+
+
+def _per_sample(low: dict[str, Any], high: dict[str, Any], samples: tuple[int, int]) -> tuple[float, float]:
+    """Marginal cost between two run sizes: wall microseconds and bytes of peak memory per sample."""
+    extra = samples[1] - samples[0]
+    return ((high["wall_s"] - low["wall_s"]) / extra * 1e6,
+            max(0.0, high["peak_rss_mb"] - low["peak_rss_mb"]) * 2**20 / extra)
+
+
+def verdict(value: float, goal: float) -> str:
+    """A figure against its goal, said plainly."""
+    return f"{value:g} against < {goal:g}: {'met' if value < goal else 'NOT met'}"
 
 
 def bench_report(samples: int = SAMPLES) -> dict[str, Any]:
     if type(samples) is not int or samples < 10:
         raise ValueError(f"bench report needs at least 10 samples, got {samples!r}")
-    tenth = _report_cost(samples // 10)
-    whole = _report_cost(samples)
-    extra = samples - samples // 10
+    load_before = os.getloadavg()[0]
+    sizes = (samples // 10, samples // 2, samples)
+    tenth, half, whole = (_report_cost(n) for n in sizes)
+    us_low, _ = _per_sample(tenth, half, sizes[:2])
+    us_high, _ = _per_sample(half, whole, sizes[1:])
+    us, per_byte = _per_sample(tenth, whole, (sizes[0], sizes[2]))
+    figures = {"samples": samples, "wall_s": round(whole["wall_s"], 3), "peak_rss_mb": round(whole["peak_rss_mb"], 1),
+               "cpu_s": round(whole["cpu_s"], 3)}
     return {
-        "samples": samples, "wall_s": round(whole["wall_s"], 3), "peak_rss_mb": round(whole["peak_rss_mb"], 1),
-        "cpu_s": round(whole["cpu_s"], 3),
-        "at_a_tenth": {"samples": samples // 10, "wall_s": round(tenth["wall_s"], 3),
+        **figures,
+        "goals": {key: verdict(figures[key], goal) for key, goal in TARGETS.items()},
+        "at_a_tenth": {"samples": sizes[0], "wall_s": round(tenth["wall_s"], 3), "cpu_s": round(tenth["cpu_s"], 3),
                        "peak_rss_mb": round(tenth["peak_rss_mb"], 1)},
-        "us_per_sample": round((whole["wall_s"] - tenth["wall_s"]) / extra * 1e6, 3),
-        "bytes_per_sample": round(max(0.0, whole["peak_rss_mb"] - tenth["peak_rss_mb"]) * 2**20 / extra, 1),
+        "at_a_half": {"samples": sizes[1], "wall_s": round(half["wall_s"], 3), "cpu_s": round(half["cpu_s"], 3),
+                      "peak_rss_mb": round(half["peak_rss_mb"], 1)},
+        "us_per_sample": round(us, 3), "bytes_per_sample": round(per_byte, 1),
+        # linear cost: the marginal cost per sample is the same over the upper half as over the lower part
+        "linearity": round(us_high / us_low, 2) if us_low > 0 else None,
         "files_bytes": whole["files"],
-        "measure": "harness report as a child process: wall seconds and its peak resident memory",
+        "load_average_1min": [round(load_before, 2), round(os.getloadavg()[0], 2)],
+        "measure": "harness report as a child process at N/10, N/2 and N samples: wall seconds, CPU seconds "
+                   "(both threads) and its peak resident memory; linearity is the marginal wall cost per "
+                   "sample from N/2 to N over that from N/10 to N/2 (1.0 is linear); the load average "
+                   "before and after says how busy the machine was",
         "targets": TARGETS,
     }

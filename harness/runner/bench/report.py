@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Any
 
 from harness.runner.bench.children import run_child
-from harness.runner.bench.startup import EVALUATE_RECORD, examples_folder
+from harness.runner.bench.startup import EVALUATE_RECORD, examples_folder, installed_env, verdict
 
 SAMPLES = 1_000_000
 TARGETS = {"wall_s": 3.0, "peak_rss_mb": 150.0}
@@ -60,7 +60,7 @@ def _report_cost(samples: int) -> dict[str, Any]:
     with tempfile.TemporaryDirectory(prefix="harness-bench-report-") as scratch:
         with Store(Path(scratch), background_flush=False) as store:
             run_id = build_run(store, samples)
-        env = {**os.environ, "HARNESS_DATA": scratch}
+        env = {**installed_env(), "HARNESS_DATA": scratch}
         cost = run_child([sys.executable, "-m", "harness.cli", "report", run_id], env=env)
         written = {p.name: p.stat().st_size for p in (Path(scratch) / run_id).iterdir()}
     return {"wall_s": cost.wall_s, "cpu_s": cost.cpu_s, "peak_rss_mb": cost.peak_rss_mb, "files": written}
@@ -71,11 +71,6 @@ def _per_sample(low: dict[str, Any], high: dict[str, Any], samples: tuple[int, i
     extra = samples[1] - samples[0]
     return ((high["wall_s"] - low["wall_s"]) / extra * 1e6,
             max(0.0, high["peak_rss_mb"] - low["peak_rss_mb"]) * 2**20 / extra)
-
-
-def verdict(value: float, goal: float) -> str:
-    """A figure against its goal, said plainly."""
-    return f"{value:g} against < {goal:g}: {'met' if value < goal else 'NOT met'}"
 
 
 def bench_report(samples: int = SAMPLES) -> dict[str, Any]:

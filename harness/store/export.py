@@ -93,9 +93,9 @@ class SampleFiles:
         self._sinks: list[Any] = []
         try:
             if csv_path is not None:
-                self._sinks.append(_ArrowCsv(csv_path, self._pa) if self._pa else _PythonCsv(csv_path))
+                self._sinks.append(_arrow_csv(csv_path, self._pa) if self._pa else _PythonCsv(csv_path))
             if parquet_path is not None:
-                self._sinks.append(_Parquet(parquet_path, self._pa))
+                self._sinks.append(_parquet(parquet_path, self._pa))
         except BaseException:
             self._close_sinks()
             raise
@@ -176,15 +176,15 @@ def _text_array(pa: Any, values: np.ndarray) -> Any:
                                  [valid, pa.py_buffer(offsets.astype(np.int32)), pa.py_buffer(b"".join(encoded))])
 
 
-class _ArrowCsv:
+class _ArrowFile:
+    """A CSV or Parquet file written by Arrow, one table per chunk."""
+
     takes_arrow = True
 
-    def __init__(self, path: Path, pa: Any):
-        import pyarrow.csv as pcsv
-
+    def __init__(self, path: Path, open_writer: Any):
         self.path = path
         try:
-            self._writer = pcsv.CSVWriter(str(path), arrow_schema(pa))
+            self._writer = open_writer(str(path))
         except OSError as exc:
             raise StoreError(f"cannot write {path}: {exc}") from exc
 
@@ -196,6 +196,19 @@ class _ArrowCsv:
 
     def close(self) -> None:
         self._writer.close()
+
+
+def _arrow_csv(path: Path, pa: Any) -> _ArrowFile:
+    import pyarrow.csv as pcsv
+
+    return _ArrowFile(path, lambda where: pcsv.CSVWriter(where, arrow_schema(pa)))
+
+
+def _parquet(path: Path, pa: Any) -> _ArrowFile:
+    import pyarrow.parquet as pq
+
+    # dictionary encoding only where values repeat: on measured floats it costs time and size
+    return _ArrowFile(path, lambda where: pq.ParquetWriter(where, arrow_schema(pa), use_dictionary=list(_REPEATING)))
 
 
 class _PythonCsv:
@@ -226,26 +239,3 @@ class _PythonCsv:
 
     def close(self) -> None:
         self._handle.close()
-
-
-class _Parquet:
-    takes_arrow = True
-
-    def __init__(self, path: Path, pa: Any):
-        import pyarrow.parquet as pq
-
-        self.path = path
-        try:
-            # dictionary encoding only where values repeat: on measured floats it costs time and size
-            self._writer = pq.ParquetWriter(str(path), arrow_schema(pa), use_dictionary=list(_REPEATING))
-        except OSError as exc:
-            raise StoreError(f"cannot write {path}: {exc}") from exc
-
-    def add(self, table: Any) -> None:
-        try:
-            self._writer.write_table(table)
-        except OSError as exc:
-            raise StoreError(f"cannot write {self.path}: {exc}") from exc
-
-    def close(self) -> None:
-        self._writer.close()

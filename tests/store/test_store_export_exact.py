@@ -164,3 +164,14 @@ def test_arrow_tables_are_built_without_pandas(tmp_path):
                           cwd=Path(__file__).resolve().parents[2])
     assert done.returncode == 0, done.stderr
     assert done.stdout.split("\n")[0] == "5 5 ['a', None, 'b', None, None]"
+
+
+def test_a_run_without_samples_gets_the_columns_and_no_rows(open_store, tmp_path):
+    with open_store() as store:
+        run_id = begin(store)
+        path = store.export_csv(run_id, tmp_path / "s.csv")
+        assert _read_csv(path) == []
+        if HAS_PYARROW:
+            import pyarrow.parquet as pq
+            table = pq.read_table(store.export_parquet(run_id, tmp_path / "s.parquet"))
+            assert table.column_names == list(EXPORT_NAMES) and table.num_rows == 0

@@ -112,38 +112,21 @@ def dicts(cursor: sqlite3.Cursor) -> list[dict[str, Any]]:
     return [dict(zip(names, row)) for row in cursor]
 
 
-def sample_columns(rows: list[tuple[Any, ...]], names: tuple[str, ...] = SAMPLE_COLUMNS) -> dict[str, np.ndarray]:
-    """Rows of ``names`` as one array per column (NULL -> NaN in float columns).
-
-    Called on one chunk of rows at a time (see ``Store.sample_pages``): the rows of a whole run
-    are never held as Python tuples at once. ``Store.sample_chunks`` reads the numeric columns
-    without the text column (:func:`numeric_columns`) and the sparse tags on their own.
-    """
-    if not rows:
-        return {name: np.empty(0, dtype=_SAMPLE_DTYPES.get(name, float)) for name in names}
-    numeric = [i for i, name in enumerate(names) if _SAMPLE_DTYPES.get(name) is not object]
-    texts = {name: np.array([row[i] for row in rows], dtype=object)
-             for i, name in enumerate(names) if _SAMPLE_DTYPES.get(name) is object}
-    if len(numeric) == len(names):
-        block = rows
-    elif numeric == list(range(len(numeric))):  # the text columns last, as in SAMPLE_COLUMNS
-        block = list(map(operator.itemgetter(slice(0, len(numeric))), rows))
-    else:
-        block = [tuple(row[i] for i in numeric) for row in rows]
-    columns = numeric_columns(block, tuple(names[i] for i in numeric))
-    columns.update(texts)
-    return {name: columns[name] for name in names}
+def empty_columns(names: tuple[str, ...] = SAMPLE_COLUMNS) -> dict[str, np.ndarray]:
+    """The columns of a run without samples, each of its type."""
+    return {name: np.empty(0, dtype=_SAMPLE_DTYPES.get(name, float)) for name in names}
 
 
 def numeric_columns(rows: list[Any], names: tuple[str, ...]) -> dict[str, np.ndarray]:
-    """Rows of numeric columns only, as one array per column (NULL -> NaN).
+    """Rows of numeric columns only, as one array per column (NULL -> NaN); called on one chunk
+    of rows at a time (see ``Store.sample_chunks``), so a run's rows are never all held at once.
 
     One float array of the whole chunk (None -> NaN), then a column per name: far cheaper than
     building each column from Python objects. Whole-number columns (NOT NULL in the store) come
     back exact: every id and index is far below 2**53.
     """
     if not rows:
-        return {name: np.empty(0, dtype=_SAMPLE_DTYPES.get(name, float)) for name in names}
+        return empty_columns(names)
     block = np.array(rows, dtype=float).reshape(len(rows), len(names))
     return {name: (block[:, j].astype(_SAMPLE_DTYPES[name]) if name in _SAMPLE_DTYPES else block[:, j].copy())
             for j, name in enumerate(names)}

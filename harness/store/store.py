@@ -410,7 +410,7 @@ class Store:
         names = rows.sample_column_names(columns)
         parts = list(self.sample_chunks(run_id, names))
         if not parts:
-            return rows.sample_columns([], names)
+            return rows.empty_columns(names)
         return {name: np.concatenate([part[name] for part in parts]) for name in names}
 
     def sample_chunks(self, run_id: str, columns: Iterable[str] | None = None,

@@ -32,7 +32,8 @@ def test_report_figures_keys_and_linearity(monkeypatch):
     figures = bench_report_module.bench_report(1_000_000)
     assert figures["samples"] == 1_000_000 and figures["wall_s"] == pytest.approx(3.0)
     assert figures["peak_rss_mb"] == pytest.approx(147.7, abs=0.05)
-    assert figures["us_per_sample"] == pytest.approx(2.0) and figures["bytes_per_sample"] == pytest.approx(50.0, abs=0.1)
+    assert figures["us_per_sample"] == pytest.approx(2.0) and figures["cpu_us_per_sample"] == pytest.approx(3.0)
+    assert figures["bytes_per_sample"] == pytest.approx(50.0, abs=0.1)
     assert figures["linearity"] == pytest.approx(1.0)
     assert figures["goals"] == {"wall_s": "3 against < 3: NOT met", "peak_rss_mb": "147.7 against < 150: met"}
     assert figures["at_a_tenth"]["samples"] == 100_000 and figures["at_a_half"]["samples"] == 500_000

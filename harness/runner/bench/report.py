@@ -1,5 +1,7 @@
 """Report cost against run size: a stored run of N raw samples, then ``harness report`` on it as a
-child process, its wall time and peak memory; the same at a tenth of N shows whether cost is linear.
+child process, its wall time and peak memory; the same at a tenth and a half of N shows whether
+cost is linear. Each run is built by a process of its own, so that this one stays small (see
+``_report_cost``).
 
 The run is written through the store's ordinary ``add_sample`` path: a ramp, a measure and a
 hold, the measure's averaged readings, step-start events with their limits, and the results of
@@ -10,6 +12,8 @@ from __future__ import annotations
 
 import math
 import os
+import resource
+import subprocess
 import sys
 import tempfile
 from pathlib import Path
@@ -54,23 +58,42 @@ def build_run(store: Any, samples: int) -> str:
     return run_id
 
 
-def _report_cost(samples: int) -> dict[str, Any]:
+def build_into(folder: str, samples: int) -> None:
+    """Build the run into a store in ``folder`` and print its id: run as a process of its own."""
     from harness.store import Store
 
+    with Store(Path(folder), background_flush=False) as store:
+        print(build_run(store, samples))
+
+
+def _report_cost(samples: int) -> dict[str, Any]:
     with tempfile.TemporaryDirectory(prefix="harness-bench-report-") as scratch:
-        with Store(Path(scratch), background_flush=False) as store:
-            run_id = build_run(store, samples)
+        # Built by a process of its own: on Linux a child's peak memory, as wait4 reports it, is
+        # at least its parent's peak at the fork (the high-water mark is carried across exec), so
+        # a parent that had built 10^6 samples itself would be measured instead of the report.
+        build = f"from harness.runner.bench.report import build_into; build_into({scratch!r}, {samples})"
+        built = subprocess.run([sys.executable, "-c", build], env=installed_env(), capture_output=True, text=True)
+        if built.returncode != 0:
+            raise RuntimeError(f"building the run failed: {built.stderr[-400:]}")
+        run_id = built.stdout.split()[-1]
         env = {**installed_env(), "HARNESS_DATA": scratch}
         cost = run_child([sys.executable, "-m", "harness.cli", "report", run_id], env=env)
         written = {p.name: p.stat().st_size for p in (Path(scratch) / run_id).iterdir()}
     return {"wall_s": cost.wall_s, "cpu_s": cost.cpu_s, "peak_rss_mb": cost.peak_rss_mb, "files": written}
 
 
-def _per_sample(low: dict[str, Any], high: dict[str, Any], samples: tuple[int, int]) -> tuple[float, float]:
-    """Marginal cost between two run sizes: wall microseconds and bytes of peak memory per sample."""
-    extra = samples[1] - samples[0]
-    return ((high["wall_s"] - low["wall_s"]) / extra * 1e6,
-            max(0.0, high["peak_rss_mb"] - low["peak_rss_mb"]) * 2**20 / extra)
+def launcher_peak_rss_mb() -> float:
+    """This process's own peak memory: the floor under every child's reported peak."""
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+
+
+def _per_sample(low: dict[str, Any], high: dict[str, Any], samples: tuple[int, int], key: str = "wall_s") -> float:
+    """Marginal cost between two run sizes: microseconds of ``key`` per sample."""
+    return (high[key] - low[key]) / (samples[1] - samples[0]) * 1e6
+
+
+def _bytes_per_sample(low: dict[str, Any], high: dict[str, Any], samples: tuple[int, int]) -> float:
+    return max(0.0, high["peak_rss_mb"] - low["peak_rss_mb"]) * 2**20 / (samples[1] - samples[0])
 
 
 def bench_report(samples: int = SAMPLES) -> dict[str, Any]:
@@ -79,9 +102,9 @@ def bench_report(samples: int = SAMPLES) -> dict[str, Any]:
     load_before = os.getloadavg()[0]
     sizes = (samples // 10, samples // 2, samples)
     tenth, half, whole = (_report_cost(n) for n in sizes)
-    us_low, _ = _per_sample(tenth, half, sizes[:2])
-    us_high, _ = _per_sample(half, whole, sizes[1:])
-    us, per_byte = _per_sample(tenth, whole, (sizes[0], sizes[2]))
+    ends = (sizes[0], sizes[2])
+    # linearity from CPU seconds: on a shared machine wall time also measures the neighbours
+    cpu_low, cpu_high = _per_sample(tenth, half, sizes[:2], "cpu_s"), _per_sample(half, whole, sizes[1:], "cpu_s")
     figures = {"samples": samples, "wall_s": round(whole["wall_s"], 3), "peak_rss_mb": round(whole["peak_rss_mb"], 1),
                "cpu_s": round(whole["cpu_s"], 3)}
     return {
@@ -91,14 +114,18 @@ def bench_report(samples: int = SAMPLES) -> dict[str, Any]:
                        "peak_rss_mb": round(tenth["peak_rss_mb"], 1)},
         "at_a_half": {"samples": sizes[1], "wall_s": round(half["wall_s"], 3), "cpu_s": round(half["cpu_s"], 3),
                       "peak_rss_mb": round(half["peak_rss_mb"], 1)},
-        "us_per_sample": round(us, 3), "bytes_per_sample": round(per_byte, 1),
+        "us_per_sample": round(_per_sample(tenth, whole, ends), 3),
+        "cpu_us_per_sample": round(_per_sample(tenth, whole, ends, "cpu_s"), 3),
+        "bytes_per_sample": round(_bytes_per_sample(tenth, whole, ends), 1),
         # linear cost: the marginal cost per sample is the same over the upper half as over the lower part
-        "linearity": round(us_high / us_low, 2) if us_low > 0 else None,
+        "linearity": round(cpu_high / cpu_low, 2) if cpu_low > 0 else None,
         "files_bytes": whole["files"],
         "load_average_1min": [round(load_before, 2), round(os.getloadavg()[0], 2)],
+        "launcher_peak_rss_mb": round(launcher_peak_rss_mb(), 1),
         "measure": "harness report as a child process at N/10, N/2 and N samples: wall seconds, CPU seconds "
-                   "(both threads) and its peak resident memory; linearity is the marginal wall cost per "
-                   "sample from N/2 to N over that from N/10 to N/2 (1.0 is linear); the load average "
-                   "before and after says how busy the machine was",
+                   "(both threads) and its peak resident memory (never below launcher_peak_rss_mb, this process's "
+                   "own, which the operating system carries into every child); linearity is the marginal CPU "
+                   "cost per sample from N/2 to N over that from N/10 to N/2 (1.0 is linear); the load "
+                   "average before and after says how busy the machine was",
         "targets": TARGETS,
     }

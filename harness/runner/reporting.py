@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-import contextlib
 import datetime as dt
-import importlib.util
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -28,22 +26,15 @@ def write_run_reports(store: RunStore, run_id: str) -> Path:
     The raw samples are read once, a chunk at a time: each chunk goes to the CSV and Parquet
     files and to the figures' thinning, so memory stays bounded whatever the run's length.
     """
-    from harness.store import rows
-    from harness.store.export import CsvSamples, ParquetSamples
+    from harness.store.export import SampleFiles, pyarrow_or_none
 
     folder = store.run_folder(run_id)
     row = store.run(run_id)  # the run with its steps, events, instruments and readings
     thinners = _thinners(row["steps"], store.sample_counts(run_id))
-    with contextlib.ExitStack() as files:
-        csv_file = files.enter_context(CsvSamples(folder / "samples.csv"))
-        parquet = None
-        if importlib.util.find_spec("pyarrow") is not None:
-            parquet = files.enter_context(ParquetSamples(folder / "samples.parquet"))
-        for page in store.sample_pages(run_id):
-            csv_file.add(page)
-            columns = rows.sample_columns(page)
-            if parquet is not None:
-                parquet.add(columns)
+    parquet = folder / "samples.parquet" if pyarrow_or_none() is not None else None
+    with SampleFiles(csv_path=folder / "samples.csv", parquet_path=parquet) as files:
+        for columns in store.sample_chunks(run_id):
+            files.add(columns)
             _thin(thinners, columns)
     paths = write_reports(folder, run_bundle(store, run_id, row, thinners))
     return Path(paths["html"])

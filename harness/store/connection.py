@@ -45,6 +45,16 @@ class Connection:
         compiled = statement.compile(dialect=self._dialect)
         return str(compiled), [compiled.params[name] for name in (compiled.positiontup or ())]
 
+    def prepare(self, statement: Any) -> tuple[str, tuple[str, ...], dict[str, Any]]:
+        """A statement with named ``bindparam`` values compiled once: its SQL, the names of its
+        parameters in order and the values the statement fixed itself (see :meth:`run_prepared`)."""
+        compiled = statement.compile(dialect=self._dialect)
+        return str(compiled), tuple(compiled.positiontup or ()), dict(compiled.params)
+
+    def run_prepared(self, prepared: tuple[str, tuple[str, ...], dict[str, Any]], **values: Any) -> Any:
+        text, names, fixed = prepared
+        return self.run(text, [values[name] if name in values else fixed[name] for name in names])
+
     def execute(self, statement: Any) -> Any:
         """Run a Core statement; the driver's cursor."""
         text, params = self.sql(statement)

@@ -112,32 +112,33 @@ def dicts(cursor: sqlite3.Cursor) -> list[dict[str, Any]]:
     return [dict(zip(names, row)) for row in cursor]
 
 
-def sample_columns(rows: list[tuple[Any, ...]], names: tuple[str, ...] = SAMPLE_COLUMNS) -> dict[str, np.ndarray]:
-    """Rows of ``names`` as one array per column (NULL -> NaN in float columns).
+def empty_columns(names: tuple[str, ...] = SAMPLE_COLUMNS) -> dict[str, np.ndarray]:
+    """The columns of a run without samples, each of its type."""
+    return {name: np.empty(0, dtype=_SAMPLE_DTYPES.get(name, float)) for name in names}
 
-    Called on one chunk of rows at a time (see ``Store.sample_chunks``): the rows of a whole run
-    are never held as Python tuples at once.
+
+def numeric_columns(rows: list[Any], names: tuple[str, ...]) -> dict[str, np.ndarray]:
+    """Rows of numeric columns only, as one array per column (NULL -> NaN); called on one chunk
+    of rows at a time (see ``Store.sample_chunks``), so a run's rows are never all held at once.
+
+    One float array of the whole chunk (None -> NaN), then a column per name: far cheaper than
+    building each column from Python objects. Whole-number columns (NOT NULL in the store) come
+    back exact: every id and index is far below 2**53.
     """
     if not rows:
-        return {name: np.empty(0, dtype=_SAMPLE_DTYPES.get(name, float)) for name in names}
-    # One float array of the whole chunk (None -> NaN), then a column view per name: far cheaper
-    # than building each column from Python objects. The text column is taken apart on its own.
-    numeric = [i for i, name in enumerate(names) if _SAMPLE_DTYPES.get(name) is not object]
-    texts = {name: np.array([row[i] for row in rows], dtype=object)
-             for i, name in enumerate(names) if _SAMPLE_DTYPES.get(name) is object}
-    if len(numeric) == len(names):
-        block = np.array(rows, dtype=float)
-    elif numeric == list(range(len(numeric))):  # the text columns last, as in SAMPLE_COLUMNS
-        block = np.array(list(map(operator.itemgetter(slice(0, len(numeric))), rows)), dtype=float)
-    else:
-        block = np.array([tuple(row[i] for i in numeric) for row in rows], dtype=float)
-    columns: dict[str, np.ndarray] = {}
-    for j, i in enumerate(numeric):
-        name = names[i]
-        column = block[:, j]
-        columns[name] = column.astype(_SAMPLE_DTYPES[name]) if name in _SAMPLE_DTYPES else column.copy()
-    columns.update(texts)
-    return {name: columns[name] for name in names}
+        return empty_columns(names)
+    block = np.array(rows, dtype=float).reshape(len(rows), len(names))
+    return {name: (block[:, j].astype(_SAMPLE_DTYPES[name]) if name in _SAMPLE_DTYPES else block[:, j].copy())
+            for j, name in enumerate(names)}
+
+
+def tag_column(count: int, ids: np.ndarray, tagged: list[tuple[int, str]]) -> np.ndarray:
+    """The tag column of ``count`` samples with ids ``ids`` (ascending) from the few that carry one."""
+    column = np.full(count, None, dtype=object)
+    if tagged:
+        found = np.array([i for i, _ in tagged], dtype=np.int64)
+        column[np.searchsorted(ids, found)] = [tag for _, tag in tagged]
+    return column
 
 
 def sample_column_names(names: Any) -> tuple[str, ...]:

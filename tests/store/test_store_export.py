@@ -135,12 +135,13 @@ def test_chosen_columns_and_counts_per_step(filled):
 def test_parquet_keeps_one_schema_over_chunks(filled, tmp_path):
     import pyarrow.parquet as pq
 
-    from harness.store.export import write_parquet
+    from harness.store.export import write_samples
 
     store, run_id = filled
     # the second chunk's tag is absent only: it must still be a text column, not a null one
     chunks = list(store.sample_chunks(run_id, chunk=1))
-    path = write_parquet(iter(chunks[1:2] + chunks), tmp_path / "x.parquet")
+    path = tmp_path / "x.parquet"
+    write_samples(iter(chunks[1:2] + chunks), parquet_path=path)
     table = pq.read_table(path)
     assert str(table.schema.field("tag").type) == "string" and table.num_rows == 5
     assert table.to_pydict()["tag"] == [None, "start", None, "no_load_rated", "overrange"]

@@ -76,3 +76,28 @@ def test_ratio_faults_fail_their_check_and_leave_the_bay_safe(tmp_path, fault, f
     assert failed == [failing]
     sentence = failed_checks(doc["results"])
     assert len(sentence) == 1 and sentence[0].startswith(failing.replace("_", " ") + " outside its tolerance: ")
+
+
+def test_ratio_readings_average_distinct_analyser_updates_and_a_frozen_analyser_is_a_fault(tmp_path, monkeypatch):
+    """An analyser whose voltages stop changing gives no new reading: the step counts only distinct
+    updates, and after three times the readings asked for without them it stops, the bay made safe
+    (common practice, no source: a repeated reading is the instrument's last update again)."""
+    from drivers.power_analyser import PowerAnalyser
+    from harness.runner.prepare import RunOptions
+    from harness.runner.run import execute
+    from harness.store import Store
+
+    real = PowerAnalyser.voltages
+    frozen: dict[str, tuple[float, ...]] = {}
+
+    def voltages(self, channels):
+        if "last" not in frozen:
+            frozen["last"] = tuple(real(self, channels))
+        return frozen["last"]
+
+    monkeypatch.setattr(PowerAnalyser, "voltages", voltages)
+    with Store(tmp_path / "data") as store:
+        outcome = execute(RunOptions(ratio_sequence("default", tmp_path), scenario="default", yes=True, quiet=True,
+                                     time_scale=100), store)
+    assert (outcome.status, outcome.exit_code) == ("tripped", 3) and outcome.safe_state["confirmed"]
+    assert outcome.trip is not None and "voltages did not change over 90 readings" in outcome.trip["cause"]

@@ -36,6 +36,9 @@ from harness.safety import ReadingFault, Trip
 # readings, and the % of range part of the analyser's error is what limits a ratio measured on
 # two channels (0.02 % of range on a range 1.3 times the reading is 0.026 % of it; at 1.1, 0.022 %).
 RATIO_RANGE_HEADROOM = 1.1
+# A ratio reading averages distinct analyser updates: a reading that repeats the last one exactly is
+# not counted; more than this many times the readings asked for without enough new ones is a fault.
+REPEATS_ALLOWED = 3
 # The open winding may read this much above what the declared ratio of the tap gives before the
 # step stops: a tap step or a ratio error is a few %, a swapped connection is a factor.
 OPEN_WINDING_MARGIN = 1.5
@@ -133,16 +136,26 @@ def read_tap(run: Run, step: Any, tap: int) -> dict[str, Any]:
     run.bay.analyser.set_channel_voltage_range(RATIO_RANGE_HEADROOM * u_fed / expected / vt, open_ch)
     fed_v, open_v, lags = [], [], []
     cadence = Cadence(run.clock, step.interval)  # readings `interval` apart, start to start
-    for _ in range(step.readings):
+    previous: tuple[float, ...] | None = None
+    for _ in range(REPEATS_ALLOWED * step.readings):
+        if len(fed_v) == step.readings:
+            break
         cadence.wait()
         run.read(tag="ratio")
-        volts = np.array(run.bay.analyser.voltages(fed_ch + open_ch)) * vt
+        raw = tuple(run.bay.analyser.voltages(fed_ch + open_ch))
+        if raw == previous:
+            continue  # the analyser's last update again (a reading right after a late one): nothing new to average
+        previous = raw
+        volts = np.array(raw) * vt
         fed, other = volts[:len(fed_ch)], volts[len(fed_ch):]
         _check_open_winding(run, fed, other, expected, tap)
         angles = [run.bay.analyser.phase_angle(a, b) for a, b in zip(fed_ch, open_ch)]
         fed_v.append(fed)
         open_v.append(other)
         lags.append([(-a if run.fed == "hv" else a) % 360.0 for a in angles])
+    if len(fed_v) < step.readings:
+        raise ReadingFault(f"the analyser's voltages did not change over {REPEATS_ALLOWED * step.readings} readings "
+                           f"on tap {tap_name(tap)}: its readings are not being updated", step=run.step_title)
     fed_mean, open_mean = np.mean(fed_v, axis=0), np.mean(open_v, axis=0)
     hv, lv = (fed_mean, open_mean) if run.fed == "hv" else (open_mean, fed_mean)
     lag = [_circular_mean([row[k] for row in lags]) for k in range(len(fed_ch))]

@@ -100,4 +100,4 @@ def test_ratio_readings_average_distinct_analyser_updates_and_a_frozen_analyser_
         outcome = execute(RunOptions(ratio_sequence("default", tmp_path), scenario="default", yes=True, quiet=True,
                                      time_scale=100), store)
     assert (outcome.status, outcome.exit_code) == ("tripped", 3) and outcome.safe_state["confirmed"]
-    assert outcome.trip is not None and "voltages did not change over 90 readings" in outcome.trip["cause"]
+    assert outcome.trip is not None and "voltages did not change over 180 readings" in outcome.trip["cause"]  # 3 x the 60 asked

@@ -8,24 +8,45 @@ Every failure is an :class:`InstrumentError` naming the instrument and the comma
 
 from __future__ import annotations
 
+from importlib import import_module
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from drivers.ac_source import AcSource
-from drivers.bay_control import BayControl
-from drivers.errors import (ConnectionLost, InstrumentError, InstrumentReportedError, InstrumentTimeout,
-                            NotReached, NotSupported, OverRange, ProtocolError)
-from drivers.power_analyser import ChannelReading, PowerAnalyser, Snapshot
-from drivers.profile import KINDS, Profile, load_profile
-from drivers.resistance_meter import ResistanceMeter
-from drivers.scpi import Identity, ScpiInstrument
-from drivers.tap_changer import TapChanger
-from drivers.thermometer import Thermometer
-from drivers.transport import FakeTransport, PyvisaTransport, Transport
+if TYPE_CHECKING:
+    from drivers.profile import Profile
+    from drivers.scpi import ScpiInstrument
 
-INSTRUMENT_CLASSES: dict[str, type[ScpiInstrument]] = {
-    cls.KIND: cls for cls in (AcSource, PowerAnalyser, ResistanceMeter, Thermometer, BayControl, TapChanger)
+# The package's names, each imported from its module when first used: importing one driver module
+# (``drivers.profile`` to check a station's profiles, say) then costs that module alone, not every
+# driver and pyvisa (module ``__getattr__``, PEP 562; written here, not harness.common.lazy: the
+# drivers depend on nothing of the harness).
+_HOMES = {
+    "AcSource": "ac_source", "BayControl": "bay_control", "ChannelReading": "power_analyser",
+    "ConnectionLost": "errors", "FakeTransport": "transport", "Identity": "scpi", "InstrumentError": "errors",
+    "InstrumentReportedError": "errors", "InstrumentTimeout": "errors", "KINDS": "profile",
+    "NotReached": "errors", "NotSupported": "errors", "OverRange": "errors", "PowerAnalyser": "power_analyser",
+    "Profile": "profile", "ProtocolError": "errors", "PyvisaTransport": "transport",
+    "ResistanceMeter": "resistance_meter", "ScpiInstrument": "scpi", "Snapshot": "power_analyser",
+    "TapChanger": "tap_changer", "Thermometer": "thermometer", "Transport": "transport",
+    "load_profile": "profile",
 }
+_CLASSES = ("AcSource", "PowerAnalyser", "ResistanceMeter", "Thermometer", "BayControl", "TapChanger")
+
+
+def __getattr__(name: str) -> Any:
+    if name == "INSTRUMENT_CLASSES":
+        return instrument_classes()
+    if name in _HOMES:
+        value = getattr(import_module(f"drivers.{_HOMES[name]}"), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'drivers' has no attribute '{name}'")
+
+
+def instrument_classes() -> dict[str, type[ScpiInstrument]]:
+    """Each instrument kind's driver class, by its ``KIND``."""
+    classes: list[type[ScpiInstrument]] = [__getattr__(name) for name in _CLASSES]
+    return {cls.KIND: cls for cls in classes}
 
 
 def open_instrument(kind: str, resource: str, profile: Profile | str | Path, name: str,
@@ -36,9 +57,13 @@ def open_instrument(kind: str, resource: str, profile: Profile | str | Path, nam
     pyvisa-py is used. ``options`` go to the class (``channels=(1, 2, 3)`` for an analyser).
     The profile is loaded before the link is opened, so a bad profile touches no instrument.
     """
-    if kind not in INSTRUMENT_CLASSES:
+    from drivers.profile import KINDS, Profile, load_profile
+    from drivers.transport import PyvisaTransport
+
+    classes = instrument_classes()
+    if kind not in classes:
         raise ValueError(f"unknown instrument kind '{kind}' (kinds: {', '.join(KINDS)})")
-    cls = INSTRUMENT_CLASSES[kind]
+    cls = classes[kind]
     loaded = profile if isinstance(profile, Profile) else load_profile(profile, kind)
     transport = PyvisaTransport(resource, rm=rm, timeout_s=timeout_s, name=name)
     try:
@@ -48,9 +73,10 @@ def open_instrument(kind: str, resource: str, profile: Profile | str | Path, nam
         raise
 
 
-__all__ = sorted([
+__all__ = [
     "AcSource", "BayControl", "ChannelReading", "ConnectionLost", "FakeTransport", "INSTRUMENT_CLASSES",
     "Identity", "InstrumentError", "InstrumentReportedError", "InstrumentTimeout", "KINDS", "NotReached", "NotSupported",
     "OverRange", "PowerAnalyser", "Profile", "ProtocolError", "PyvisaTransport", "ResistanceMeter",
-    "ScpiInstrument", "Snapshot", "TapChanger", "Thermometer", "Transport", "load_profile", "open_instrument",
-])
+    "ScpiInstrument", "Snapshot", "TapChanger", "Thermometer", "Transport", "instrument_classes", "load_profile",
+    "open_instrument",
+]

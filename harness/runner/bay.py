@@ -3,16 +3,18 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from drivers import open_instrument
 from drivers.errors import InstrumentError
-from drivers.ac_source import AcSource
-from drivers.bay_control import BayControl
-from drivers.resistance_meter import ResistanceMeter
-from drivers.thermometer import Thermometer
-from drivers.power_analyser import PowerAnalyser
-from drivers.tap_changer import TapChanger
+
+if TYPE_CHECKING:  # the classes come with the opened instruments: checking a sequence needs none of them
+    from drivers.ac_source import AcSource
+    from drivers.bay_control import BayControl
+    from drivers.power_analyser import PowerAnalyser
+    from drivers.resistance_meter import ResistanceMeter
+    from drivers.tap_changer import TapChanger
+    from drivers.thermometer import Thermometer
 from harness.common.clock import Clock
 from harness.config.station import Instrument, Station, TapChangerInstrument
 from harness.config.station_checks import ROLE_KINDS, serial_mismatches

@@ -4,11 +4,12 @@ confirmed (see harness.runner.seams.Operator)."""
 from __future__ import annotations
 
 import sys
-from typing import Callable
+from typing import TYPE_CHECKING, Callable
 
-from drivers.bay_control import BayControl
+if TYPE_CHECKING:
+    from drivers.bay_control import BayControl
 
-SimulatedChange = Callable[[BayControl], None]
+SimulatedChange = Callable[["BayControl"], None]
 """What the simulated bay's control does for a prompt answered with ``--yes`` (rewire, move the tap)."""
 
 

@@ -5,9 +5,10 @@ the simulated bay), and tests give their own."""
 
 from __future__ import annotations
 
-from typing import Any, Callable, Protocol
+from typing import TYPE_CHECKING, Any, Callable, Protocol
 
-from drivers.bay_control import BayControl
+if TYPE_CHECKING:
+    from drivers.bay_control import BayControl
 
 from harness.common.reading import Sample
 from harness.config.checks import EffectiveLimits

@@ -16,11 +16,10 @@ changer goes back to the principal tap (the loss tests are made there) and the o
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from drivers.tap_changer import TapChanger
 from harness.calc.ratio import declared_ratio, tap_factor, tap_name
 from harness.common.clock import Cadence
 from harness.config.checks import OPEN_WINDING
@@ -31,6 +30,9 @@ from harness.runner.steps.off import switch_off
 from harness.runner.steps.prompt import operator_change
 from harness.runner.steps.ramp import ramp_to
 from harness.safety import ReadingFault, Trip
+
+if TYPE_CHECKING:
+    from drivers.tap_changer import TapChanger
 
 # Ranges fitted to 110 % of the readings: the source holds a steady, low voltage through the
 # readings, and the % of range part of the analyser's error is what limits a ratio measured on
@@ -134,7 +136,9 @@ def read_tap(run: Run, step: Any, tap: int) -> dict[str, Any]:
     run.fit_ranges(first, RATIO_RANGE_HEADROOM)
     u_fed = max(ph.u_rms for ph in first.phases)
     run.bay.analyser.set_channel_voltage_range(RATIO_RANGE_HEADROOM * u_fed / expected / vt, open_ch)
-    fed_v, open_v, lags = [], [], []
+    fed_v: list[np.ndarray] = []
+    open_v: list[np.ndarray] = []
+    lags: list[list[float]] = []
     cadence = Cadence(run.clock, step.interval)  # readings `interval` apart, start to start
     previous: tuple[float, ...] | None = None
     for _ in range(REPEATS_ALLOWED * step.readings):

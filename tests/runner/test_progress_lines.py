@@ -25,10 +25,10 @@ def test_live_lines_fit_80_columns(phases, value):
     assert ("U12/23/31" in lines[0]) == (phases == 3)
 
 
-def plain_progress() -> tuple[Progress, io.StringIO]:
+def plain_progress(terminal: bool = False) -> tuple[Progress, io.StringIO]:
     progress = Progress()
     out = io.StringIO()
-    progress.console = Console(file=out, width=LINE_WIDTH, force_terminal=False, highlight=False)
+    progress.console = Console(file=out, width=LINE_WIDTH, force_terminal=terminal, highlight=False)
     return progress, out
 
 
@@ -50,15 +50,8 @@ def test_a_hold_shows_its_progress_in_plain_lines():
     assert text.count("warm the winding: ") == 4
 
 
-def terminal_progress() -> tuple[Progress, io.StringIO]:
-    progress = Progress()
-    out = io.StringIO()
-    progress.console = Console(file=out, width=LINE_WIDTH, force_terminal=True, highlight=False)
-    return progress, out
-
-
 def test_the_live_panel_draws_the_latest_reading_at_its_own_refresh():
-    progress, out = terminal_progress()
+    progress, out = plain_progress(terminal=True)
     with progress:
         assert progress.live is not None
         for volts in (100.0, 200.0, 314.159):  # readings faster than the panel redraws: only the latest is drawn
@@ -75,7 +68,7 @@ def test_a_panel_that_fails_to_draw_stops_the_run_at_the_next_reading(monkeypatc
         raise ValueError("cannot draw")
 
     monkeypatch.setattr(module, "live_lines", broken)
-    progress, _ = terminal_progress()
+    progress, _ = plain_progress(terminal=True)
     guarded = GuardedDisplay(progress)
     reading = combine(0, 1.0, (Phase(1.0, 1.0, 1.0, 1.0),), 50.0, 1.0)
     with progress:

@@ -13,13 +13,13 @@ from harness.report import ReportBundle, write_reports
 from harness.report.decimate import TraceThinner
 
 if TYPE_CHECKING:
-    from harness.store.protocol import RunStore
+    from harness.store.protocol import RunSource, RunStore
 
 TRACE_KINDS = ("ramp", "sweep", "hold", "measure", "wait")
 _TRACE_KEYS = ("u_rms", "i_rms", "p")
 
 
-def write_run_reports(store: RunStore, run_id: str) -> Path:
+def write_run_reports(store: RunSource, run_id: str) -> Path:
     """Write report.html, results.json and samples.csv (and samples.parquet when pyarrow is
     installed) into the run's folder; the report's path.
 
@@ -40,7 +40,7 @@ def write_run_reports(store: RunStore, run_id: str) -> Path:
     return Path(paths["html"])
 
 
-def run_bundle(store: RunStore, run_id: str, row: dict[str, Any] | None = None,
+def run_bundle(store: RunSource, run_id: str, row: dict[str, Any] | None = None,
                thinners: dict[tuple[int, int], TraceThinner] | None = None) -> ReportBundle:
     """The report's content; the traces from ``thinners`` already fed, or read from the store."""
     row = row or store.run(run_id)

@@ -116,3 +116,41 @@ def test_harness_report_reads_sqlite_without_sqlalchemy_and_writes_the_same_file
         assert filecmp.cmp(folder / name, through_store / name, shallow=False), name
     assert json.loads((folder / "results.json").read_text()) == json.loads((through_store / "results.json").read_text())
     assert (folder / "report.html").read_text() == (through_store / "report.html").read_text()
+
+
+def test_the_report_pauses_the_cycle_collector_only_while_it_reads(tmp_path, monkeypatch):
+    """The pause is given back after the read, also when the read fails, and a collector the
+    caller had paused stays paused."""
+    import gc
+
+    from harness.runner import reporting
+
+    with Store(tmp_path, background_flush=False) as store:
+        run_id = _fill(store)
+    seen: list[bool] = []
+    real = reporting._thin
+
+    def watching(*args):
+        seen.append(gc.isenabled())
+        return real(*args)
+
+    monkeypatch.setattr(reporting, "_thin", watching)
+    with open_reader(sqlite_url(tmp_path / "harness.sqlite")) as reader:
+        assert gc.isenabled()
+        reporting.write_run_reports(reader, run_id)
+        assert seen and not any(seen) and gc.isenabled()
+
+        def failing(*args):
+            raise RuntimeError("a chunk that cannot be thinned")
+
+        monkeypatch.setattr(reporting, "_thin", failing)
+        with pytest.raises(RuntimeError):
+            reporting.write_run_reports(reader, run_id)
+        assert gc.isenabled()
+        gc.disable()
+        try:
+            monkeypatch.setattr(reporting, "_thin", real)
+            reporting.write_run_reports(reader, run_id)
+            assert not gc.isenabled()
+        finally:
+            gc.enable()

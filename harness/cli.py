@@ -318,7 +318,10 @@ def cmd_evaluate(args: argparse.Namespace) -> int:
 
 def cmd_report(args: argparse.Namespace) -> int:
     from harness.runner.reporting import write_run_reports
-    store = _open_store(args)
+    from harness.store.database import store_url
+    from harness.store.reader import open_reader
+    # a SQLite store is read without SQLAlchemy (see harness.store.reader); any other opens as Store
+    store = open_reader(store_url(args.store)) or _open_store(args)
     try:
         run_id = store.resolve(Path(args.run).name if Path(args.run).is_dir() else args.run)
         journal = store.journal(run_id)

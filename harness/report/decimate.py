@@ -63,26 +63,69 @@ def decimate(t: Sequence[float] | np.ndarray, y: Sequence[float] | np.ndarray,
 
 
 class TraceThinner:
-    """Thins several quantities of one trace read chunk by chunk; the kept samples are those that
-    are an extreme of any quantity in their bucket, plus the trace's first and last."""
+    """Thins several quantities of one trace read chunk by chunk, its length not known before:
+    the kept samples are those that are an extreme of any quantity in their bucket, plus the
+    trace's first and last.
 
-    def __init__(self, count: int, keys: Sequence[str], axis: str, points: int = MAX_POINTS):
-        self.count, self.keys, self.axis = count, tuple(keys), axis
-        self.size = bucket_size(count, points, len(self.keys))
+    Buckets start one sample wide and double whenever the trace outgrows ``points`` (the
+    extremes of ``len(keys)`` quantities, two per bucket). A bucket of width 2s is two buckets
+    of width s (all counted from the trace's first sample), so its extremes are among theirs:
+    the samples kept so far are re-thinned at the wider buckets, and the result is the same as
+    thinning the whole trace at the final width, the least power of two that keeps it within
+    ``points``. No count of the trace's samples is needed first (a pass over the store saved).
+    """
+
+    def __init__(self, keys: Sequence[str], axis: str, points: int = MAX_POINTS):
+        self.keys, self.axis = tuple(keys), axis
+        self.buckets = max(1, points // (2 * len(self.keys)))
+        self.size = 1
         self.seen = 0
-        self._kept: list[dict[str, np.ndarray]] = []
+        self._names = (self.axis, *self.keys)
+        self._position = np.empty(0, dtype=np.int64)
+        self._kept = {k: np.empty(0) for k in self._names}
+        self._parts: list[tuple[np.ndarray, dict[str, np.ndarray]]] = []
+        self._held = 0
+        self._last: dict[str, np.ndarray] = {}
 
     def add(self, columns: Mapping[str, np.ndarray]) -> None:
         """The next consecutive samples of the trace, one array per key and the axis."""
         n = len(columns[self.axis])
+        if not n:
+            return
+        while -(-(self.seen + n) // self.size) > self.buckets:
+            self.size *= 2
         parts = [extremes(np.asarray(columns[k], dtype=float), self.seen, self.size) for k in self.keys]
-        ends = [i for i, position in ((0, self.seen), (n - 1, self.seen + n - 1)) if position in (0, self.count - 1)]
-        keep = np.unique(np.concatenate([*parts, np.asarray(ends, dtype=np.int64)])) if n else np.empty(0, np.int64)
-        self._kept.append({k: np.asarray(columns[k])[keep] for k in (self.axis, *self.keys)})
+        keep = np.unique(np.concatenate([*parts, [0] if self.seen == 0 else []]).astype(np.int64))
+        self._parts.append((keep + self.seen, {k: np.asarray(columns[k], dtype=float)[keep] for k in self._names}))
+        self._last = {k: np.asarray(columns[k], dtype=float)[n - 1:] for k in self._names}
         self.seen += n
+        self._held += len(keep)
+        if self._held > 8 * self.buckets * len(self.keys):
+            self._rethin()
+
+    def _rethin(self) -> None:
+        """Keep, of the samples held, each bucket's extremes at the present width (and the first)."""
+        position = np.concatenate([self._position, *(p for p, _ in self._parts)])
+        values = {k: np.concatenate([self._kept[k], *(part[k] for _, part in self._parts)]) for k in self._names}
+        self._parts, self._held = [], 0
+        bucket = position // self.size
+        starts = np.flatnonzero(np.r_[True, bucket[1:] != bucket[:-1]]) if len(bucket) else bucket
+        chosen = [np.zeros(1, dtype=np.int64)] if len(position) and position[0] == 0 else []
+        for k in self.keys:
+            y = values[k]
+            missing = np.isnan(y)
+            for ranked in (np.where(missing, np.inf, y), np.where(missing, np.inf, -y)):
+                # per bucket the lowest value, the earliest of equals (as argmin over the bucket)
+                order = np.lexsort((position, ranked, bucket))
+                chosen.append(order[starts])
+        keep = np.unique(np.concatenate(chosen)) if chosen else np.empty(0, dtype=np.int64)
+        self._position = position[keep]
+        self._kept = {k: v[keep] for k, v in values.items()}
 
     def result(self) -> dict[str, np.ndarray]:
-        names = (self.axis, *self.keys)
-        if not self._kept:
-            return {k: np.empty(0) for k in names}
-        return {k: np.concatenate([part[k] for part in self._kept]) for k in names}
+        self._rethin()
+        if not self.seen:
+            return {k: np.empty(0) for k in self._names}
+        if self._position[-1] == self.seen - 1:
+            return dict(self._kept)
+        return {k: np.concatenate([self._kept[k], self._last[k]]) for k in self._names}

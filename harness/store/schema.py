@@ -17,7 +17,8 @@ from __future__ import annotations
 from sqlalchemy import (CheckConstraint, Column, Float, ForeignKey, Index, Integer, MetaData, PrimaryKeyConstraint,
                         Table, Text)
 
-SCHEMA_VERSION = 3
+from harness.store.version import SCHEMA_VERSION as SCHEMA_VERSION  # raised there with each migration
+
 APPLICATION = "transformer-test-harness"
 STATUSES = ("running", "passed", "failed", "tripped", "aborted", "unsafe")
 

@@ -38,13 +38,12 @@ from sqlalchemy.exc import SQLAlchemyError
 
 from harness.store import database, export, journal, rows, schema, transfer
 from harness.store.connection import Connection
-from harness.store.errors import AmbiguousRunError, StoreError, UnknownRunError
+from harness.store.errors import StoreError, UnknownRunError
 from harness.store.migrate import ensure_schema
 from harness.store.paths import data_dir, ensure_folder, new_run_id, run_folder
-from harness.store.process import host_name, process_token, station_id, still_running
+from harness.store.process import host_name, process_token, station_id
 
 SAMPLE_CHUNK = 4096  # rows per read: about 0.4 MB of numpy columns, 1.5 MB of rows (a bigger chunk is no faster)
-_JSON_FIELDS = ("simulated", "trip", "record", "results")
 _RUN_OF_ROW = operator.itemgetter(0)
 _SAMPLE_KEYS = journal.SAMPLE_FIELDS
 _FLOATS = tuple(i for i, name in enumerate(_SAMPLE_KEYS) if name in ("u_rms", "u_mean", "i_rms", "p", "freq",
@@ -318,11 +317,9 @@ class Store:
         hash is still the one that was approved."""
         table = schema.approvals
         now = self._query(select(_RUNS.c.results).where(_RUNS.c.run_id == run_id))
-        current = rows.sha256(now[0]["results"] or "") if now else None
         found = self._query(select(table.c.approved, table.c.name, table.c.role, table.c.note, table.c.results_sha256)
                             .where(table.c.run_id == run_id).order_by(table.c.id))
-        return {"results_sha256": current if now and now[0]["results"] else None,
-                "rows": [{**r, "results_match": r["results_sha256"] == current} for r in found]}
+        return rows.approval_summary(now[0]["results"] if now else None, bool(now), found)
 
     def replay_journal(self, run_id: str) -> int | None:
         """Write the run's journal (what this store could not take when it failed) into it, in
@@ -374,7 +371,7 @@ class Store:
         if status:
             stored = "running" if status == "incomplete" else status
             query = query.where(_RUNS.c.status == stored)
-        found = [_with_visible_status(r) for r in self._query(query)]
+        found = [rows.visible_status(r) for r in self._query(query)]
         return [{**{k: v for k, v in r.items() if k not in _LIVENESS},
                  "journal": _optional_path(self.journal(r["run_id"]))}
                 for r in found if not status or r["status"] == status]
@@ -382,9 +379,7 @@ class Store:
     def run(self, run_id_or_prefix: str) -> dict[str, Any]:
         """Everything about one run but its raw samples (see :meth:`samples`)."""
         run_id = self.resolve(run_id_or_prefix)
-        found = _with_visible_status(self._query(select(_RUNS).where(_RUNS.c.run_id == run_id))[0])
-        for name in _JSON_FIELDS:
-            found[name] = rows.from_json(found[name])
+        found = rows.run_row(self._query(select(_RUNS).where(_RUNS.c.run_id == run_id))[0])
         found.update(steps=self.steps(run_id), events=self.events(run_id),
                      instruments=self.instruments(run_id), readings=self.readings(run_id))
         return found
@@ -399,18 +394,11 @@ class Store:
 
     def resolve(self, run_id_or_prefix: str) -> str:
         """The full id of the one run whose id is, or begins with, the given text."""
-        key = run_id_or_prefix.strip() if isinstance(run_id_or_prefix, str) else ""
-        if not key:
-            raise UnknownRunError(f"give a run id (see `harness runs`), not {run_id_or_prefix!r}")
+        key = rows.run_key(run_id_or_prefix)
         found = [r["run_id"] for r in self._query(
             select(_RUNS.c.run_id).where(func.substr(_RUNS.c.run_id, 1, len(key)) == key)
             .order_by(_RUNS.c.run_id).limit(6))]
-        if key in found or len(found) == 1:
-            return key if key in found else found[0]
-        if not found:
-            raise UnknownRunError(f"no run '{key}' in {self.path}; `harness runs` lists the stored runs")
-        shown = ", ".join(found[:5]) + (", ..." if len(found) > 5 else "")
-        raise AmbiguousRunError(f"'{key}' matches several runs ({shown}); give more of the run id")
+        return rows.chosen_run(key, found, self.path)
 
     def samples(self, run_id: str, columns: Iterable[str] | None = None) -> dict[str, np.ndarray]:
         """The run's raw samples, one array per column (all of rows.SAMPLE_COLUMNS, or those
@@ -486,7 +474,7 @@ class Store:
         table = schema.events
         found = self._query(select(table.c.id, table.c.t, table.c.wall, table.c.kind, table.c.text, table.c.data)
                             .where(table.c.run_id == self.resolve(run_id)).order_by(table.c.id))
-        return [{**e, "data": rows.from_json(e["data"])} for e in found]
+        return [rows.event_row(e) for e in found]
 
     def steps(self, run_id: str) -> list[dict[str, Any]]:
         table = schema.steps
@@ -497,7 +485,7 @@ class Store:
     def readings(self, run_id: str) -> list[dict[str, Any]]:
         table = schema.readings
         found = self._query(select(table).where(table.c.run_id == self.resolve(run_id)).order_by(table.c.id))
-        return [{**{k: v for k, v in r.items() if k != "run_id"}, "stable": bool(r["stable"])} for r in found]
+        return [rows.reading_row(r) for r in found]
 
     def instruments(self, run_id: str) -> list[dict[str, Any]]:
         table = schema.instruments
@@ -636,8 +624,3 @@ def _optional_path(path: Path | None) -> str | None:
     return None if path is None else str(path)
 
 
-def _with_visible_status(run: dict[str, Any]) -> dict[str, Any]:
-    """'running' only while the run's process lives; otherwise the run is 'incomplete'."""
-    if run["status"] == "running" and not still_running(run["pid"], run["host"], run["process_token"]):
-        return {**run, "status": "incomplete"}
-    return run

@@ -148,23 +148,45 @@ def test_long_traces_are_thinned_but_keep_their_spike():
 
 
 def test_thinning_in_chunks_keeps_what_thinning_whole_keeps():
-    """Common practice, no source: min/max per bucket keeps a spike and is independent of chunking."""
+    """Common practice, no source: min/max per bucket keeps a spike and is independent of chunking.
+
+    The thinner does not know the trace's length: its buckets double as the trace grows, and
+    what it keeps must be exactly each bucket's extremes at the final width (computed here
+    directly on the whole trace with ``extremes``), plus the first and last sample."""
     import numpy as np
 
-    from harness.report.decimate import TraceThinner
+    from harness.report.decimate import TraceThinner, extremes
 
     rng = np.random.default_rng(7)
     n = 50_000
     columns = {"t": np.arange(n) * 0.05, "u": rng.normal(400, 1, n), "i": rng.normal(7, 0.1, n)}
     columns["i"][31_337] = 40.0  # the sample that tripped
     columns["u"][100:200] = np.nan  # the analyser gave no value here
-    whole = TraceThinner(n, ("u", "i"), "t")
+    columns["i"][5000:9000] = 7.0  # ties: the earliest of equal values is the bucket's extreme
+    whole = TraceThinner(("u", "i"), "t")
     whole.add(columns)
-    chunked = TraceThinner(n, ("u", "i"), "t")
-    for start in range(0, n, 4096):
-        chunked.add({k: v[start:start + 4096] for k, v in columns.items()})
-    a, b = whole.result(), chunked.result()
-    assert set(a["t"].tolist()) <= set(b["t"].tolist()) and len(b["t"]) <= len(a["t"]) + 4 * (n // 4096 + 1)
+    for chunk in (4096, 1000, 7):
+        chunked = TraceThinner(("u", "i"), "t")
+        for start in range(0, n, chunk):
+            chunked.add({k: v[start:start + chunk] for k, v in columns.items()})
+        a, b = whole.result(), chunked.result()
+        assert chunked.size == whole.size and all(np.array_equal(a[k], b[k], equal_nan=True) for k in a)
+    size = whole.size
+    assert size & (size - 1) == 0 and -(-n // size) <= whole.buckets < -(-n // (size // 2))
+    expected = np.unique(np.concatenate([extremes(columns["u"], 0, size), extremes(columns["i"], 0, size), [0, n - 1]]))
+    assert np.array_equal(a["t"], columns["t"][expected]) and np.array_equal(a["i"], columns["i"][expected])
     assert b["i"].max() == 40.0 and b["t"][b["i"].argmax()] == columns["t"][31_337]
     assert b["t"][0] == 0.0 and b["t"][-1] == columns["t"][-1] and np.all(np.diff(b["t"]) > 0)
     assert len(a["t"]) <= 1500 + 2
+
+
+def test_a_short_trace_is_kept_whole():
+    import numpy as np
+
+    from harness.report.decimate import TraceThinner
+
+    thinner = TraceThinner(("u",), "t")
+    for start in range(0, 700, 100):
+        thinner.add({"t": np.arange(start, start + 100) * 1.0, "u": np.full(100, 2.0)})
+    assert thinner.size == 1 and np.array_equal(thinner.result()["t"], np.arange(700) * 1.0)
+    assert TraceThinner(("u",), "t").result()["t"].size == 0

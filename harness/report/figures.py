@@ -122,7 +122,7 @@ def efficiency_figure(points: Sequence[Mapping[str, Any]], maximum: Mapping[str,
         _mark_maximum(ax, maximum)
         ax.set_xlabel("load (% of rated power)")
         ax.set_ylabel("efficiency (%)")
-        ax.legend(loc="lower right", fontsize=8)
+        ax.legend(loc="lower left", fontsize=8)  # the curves fall to the right: their ends stay clear
         ax.set_xlim(left=0)
     return to_svg(fig, "fig-efficiency")
 

@@ -43,6 +43,11 @@ def fixed(value: Any, decimals: int) -> str:
     return f"{value:.{decimals}f}" if is_number(value) else DASH
 
 
+def angle(degrees: Any, decimals: int = 1) -> str:
+    """An angle in 0 .. 360 degrees as it rounds: a lag of 359.99 degrees reads 0.0, not 360.0."""
+    return fixed(round(degrees, decimals) % 360.0, decimals) if is_number(degrees) else DASH
+
+
 def eng(value: Any, unit: str, digits: int = SIGNIFICANT) -> str:
     """``value`` with an engineering prefix: 0.01234 ohm -> '12.34 mΩ'."""
     if not is_number(value):

@@ -317,7 +317,7 @@ def ratio_rows(ratio: Mapping[str, Any] | None) -> list[dict[str, str]]:
                 "voltage": fmt.num(tap.get("tapped_voltage_V")) if k == 0 else "",
                 "phase": str(phase.get("phase") or "-"), "declared": fmt.num(phase.get("declared"), 6),
                 "measured": fmt.num(phase.get("measured"), 6), "deviation": fmt.fixed(phase.get("deviation_pct"), 3),
-                "limit": "±" + fmt.fixed(phase.get("limit_pct"), 3), "lag": fmt.fixed(phase.get("phase_displacement_deg"), 1),
+                "limit": "±" + fmt.fixed(phase.get("limit_pct"), 3), "lag": fmt.angle(phase.get("phase_displacement_deg")),
                 "clock": fmt.num(phase.get("clock")), "verdict": fmt.verdict(passed), "verdict_class": fmt.verdict_class(passed)})
     return rows
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import pytest
 from report_htmlcheck import strict_walk
 
 from harness.calc import evaluate
@@ -34,3 +35,10 @@ def test_the_ratio_table_and_figure_carry_every_tap_and_phase() -> None:
 
 def test_no_ratio_test_no_section() -> None:
     assert ratio_rows(None) == [] and ratio_figure(None) is None
+
+
+@pytest.mark.parametrize("degrees, shown", [(359.99, "0.0"), (-0.02, "0.0"), (330.04, "330.0"), (29.96, "30.0"), (None, "—")])
+def test_a_lag_reads_as_it_rounds_within_a_turn(degrees, shown):
+    """A lag just under a whole turn is the same displacement as 0 degrees: it reads 0.0, never
+    360.0 (angles in 0 .. 360, common practice, no source)."""
+    assert fmt.angle(degrees) == shown

@@ -93,7 +93,7 @@ def _word(value: Any) -> Any:
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
 
 
 class _Commands(_Strict):

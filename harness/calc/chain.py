@@ -39,7 +39,7 @@ AngleBound = Annotated[Angle, AfterValidator(_not_negative)]
 
 
 class _Model(BaseModel):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
 
 
 class InstrumentTransformer(_Model):

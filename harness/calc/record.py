@@ -51,7 +51,7 @@ TestTemperature = Annotated[Temperature, AfterValidator(_plausible_temperature)]
 
 
 class _Model(BaseModel):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
 
 
 class Winding(_Model):
@@ -231,7 +231,7 @@ class Waveform(_Model):
 
 
 class Record(_Model):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True, populate_by_name=True)
+    model_config = ConfigDict(frozen=True, extra="forbid", populate_by_name=True)
     schema_: str | None = Field(None, alias="$schema", description="JSON Schema for editors")
     spec: int = Field(RECORD_SPEC, strict=True, description="format version of the record")
     standard: Literal["iec", "ieee"] = "iec"

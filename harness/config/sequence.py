@@ -16,7 +16,7 @@ SEQUENCE_SPEC = 1
 
 class Unit(BaseModel):
     """What identifies the unit under test on the report (the nameplate is ``transformer``)."""
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
     serial: str = Field(min_length=1)
     maker: str | None = None
     description: str | None = None
@@ -25,14 +25,14 @@ class Unit(BaseModel):
 
 class Rehearsal(BaseModel):
     """Where the sequence is rehearsed when no station is given (``harness run``, ``pytest --rehearse``)."""
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
     scenario: str = Field(min_length=1, description=(
         "'nameplate' (a unit and bay built from this sequence's nameplate and guarantees), a built-in "
         "scenario's name (e.g. three-phase), or a scenario file, relative to this sequence's folder"))
 
 
 class Sequence(BaseModel):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True, populate_by_name=True)
+    model_config = ConfigDict(frozen=True, extra="forbid", populate_by_name=True)
     schema_: str | None = Field(None, alias="$schema", description="JSON Schema for editors")
     spec: FormatVersion = Field(description="format version of the sequence file")
     name: str = Field(min_length=1)

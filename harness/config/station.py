@@ -48,7 +48,7 @@ Channels = Annotated[Union[Annotated[Channel, Tag("one")], Annotated[list[Channe
 
 
 class Frozen(BaseModel):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
 
 
 class Instrument(Frozen):

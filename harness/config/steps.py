@@ -15,7 +15,7 @@ Winding = Literal["hv", "lv"]
 
 
 class Step(BaseModel):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
     name: str | None = Field(None, description="shown in progress and in the report")
     limits: Limits = Field(Limits(), description="step limits: inside the sequence's and station's")
 
@@ -128,7 +128,7 @@ class Off(Step):
 
 
 class Wiring(BaseModel):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
     fed: Winding = Field(description="the winding connected to the source")
     other: Literal["open", "short"] = Field(description="the other winding: open, or shorted by the link")
 

@@ -65,7 +65,7 @@ THREE_PHASE_ONLY = ("open-link-phase", "dead-source-phase")
 class FaultTrigger(BaseModel):
     """At most one condition; none = active from the start."""
 
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
 
     after_energised: Duration | None = Field(None, ge=0, le=b.MAX_DURATION_S, description="bay seconds with the output on")
     voltage_above: Voltage | None = Field(None, gt=0, le=b.MAX_VOLTAGE_V, description="source output voltage (rms)")
@@ -80,7 +80,7 @@ class FaultTrigger(BaseModel):
 
 
 class FaultSpec(BaseModel):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
 
     name: FaultName
     trigger: FaultTrigger = FaultTrigger()

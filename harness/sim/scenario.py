@@ -31,7 +31,7 @@ MATERIAL_CONSTANT = {"copper": 235.0, "aluminium": 225.0}
 
 
 class _Frozen(BaseModel):
-    model_config = ConfigDict(frozen=True, extra="forbid", defer_build=True)
+    model_config = ConfigDict(frozen=True, extra="forbid")
 
 
 class WindingSpec(_Frozen):

@@ -73,10 +73,4 @@ def open_instrument(kind: str, resource: str, profile: Profile | str | Path, nam
         raise
 
 
-__all__ = [
-    "AcSource", "BayControl", "ChannelReading", "ConnectionLost", "FakeTransport", "INSTRUMENT_CLASSES",
-    "Identity", "InstrumentError", "InstrumentReportedError", "InstrumentTimeout", "KINDS", "NotReached", "NotSupported",
-    "OverRange", "PowerAnalyser", "Profile", "ProtocolError", "PyvisaTransport", "ResistanceMeter",
-    "ScpiInstrument", "Snapshot", "TapChanger", "Thermometer", "Transport", "instrument_classes", "load_profile",
-    "open_instrument",
-]
+__all__ = sorted([*_HOMES, "INSTRUMENT_CLASSES", "instrument_classes", "open_instrument"])  # noqa: PLE0605

@@ -35,6 +35,17 @@ def _finished_run(store: Store, samples: int = 30) -> str:
     return run_id
 
 
+def _recording(store: Store, samples: int) -> tuple[str, Recorder]:
+    """A run recorded through the runner's recorder: one no-load step, ``samples`` samples committed."""
+    run_id = begin(store)
+    recorder = Recorder(store, run_id)
+    recorder.begin_step(run_id, 0, "measure", "no-load")
+    for i in range(samples):
+        recorder.add_sample(run_id, 0, 0.1 * i, 0, 415.0 + i, 414.0, 2.1, 160.0, 50.0, 415.0)
+    store.flush()
+    return run_id, recorder
+
+
 def _whole(store: Store, run_id: str) -> dict:
     run = store.run(run_id)
     for event in run["events"]:
@@ -80,12 +91,7 @@ def test_a_forward_cut_short_leaves_no_part_of_the_run_and_is_run_again(tmp_path
 
 def test_a_journal_is_replayed_into_its_store_exactly_once(tmp_path, open_store, monkeypatch):
     with open_store(background_flush=False) as store:
-        run_id = begin(store)
-        recorder = Recorder(store, run_id)
-        recorder.begin_step(run_id, 0, "measure", "no-load")
-        for i in range(10):
-            recorder.add_sample(run_id, 0, 0.1 * i, 0, 415.0 + i, 414.0, 2.1, 160.0, 50.0, 415.0)
-        store.flush()
+        run_id, recorder = _recording(store, 10)
         real = store._write_pending
 
         def server_gone() -> int:
@@ -136,12 +142,7 @@ def test_a_lab_database_connection_lost_mid_run_loses_nothing_and_sync_completes
     import psycopg
 
     with Store(tmp_path, url=postgres_schema, background_flush=False) as store:
-        run_id = begin(store)
-        recorder = Recorder(store, run_id)
-        recorder.begin_step(run_id, 0, "measure", "no-load")
-        for i in range(20):
-            recorder.add_sample(run_id, 0, 0.1 * i, 0, 415.0 + i, 414.0, 2.1, 160.0, 50.0, 415.0)
-        store.flush()
+        run_id, recorder = _recording(store, 20)
         backend = store._conn._raw.info.backend_pid  # the store's own server process
         with psycopg.connect(postgres_schema, autocommit=True) as admin:
             assert admin.execute("SELECT pg_terminate_backend(%s)", (backend,)).fetchone()[0] is True

@@ -43,14 +43,14 @@ class SettlingTail:
     averaging: float
     setpoint: float
     at: float
-    level: float = 0.0
+    level: float = field(init=False)   # where the slew has got to at ``at``: at rest on the setpoint to begin with
     slew_end: float = 0.0
     times: list[float] = field(default_factory=list)
     applied: list[float] = field(default_factory=list)
     trims: list[tuple[float, float]] = field(default_factory=list)
 
     def __post_init__(self) -> None:
-        self.level = self.setpoint   # at rest where it was left
+        self.level = self.setpoint
 
     def command(self, t: float, setpoint: float, trim: bool) -> None:
         """A setpoint sent at ``t``; a trim keeps the tail (its step is fitted), a move starts a new one."""
@@ -101,7 +101,7 @@ def fit_drop(t: np.ndarray, gap: np.ndarray, trims: Sequence[tuple[float, float]
         # a reading's stamp: one phase inside each such interval tries every way they can fall
         # (shifting all instants alike only rescales the amplitude).
         edges = np.unique(np.mod(t, update))
-        phases = ((edges + np.roll(edges, -1) + np.where(np.arange(edges.size) == edges.size - 1, update, 0.0)) / 2)[:, None]
+        phases = ((edges + np.append(edges[1:], edges[0] + update)) / 2)[:, None]  # the midpoints, round the turn
         times = np.floor((t[None, :] - phases) / update) * update + phases      # [phase, reading]
     else:
         times = t[None, :]
@@ -112,14 +112,13 @@ def fit_drop(t: np.ndarray, gap: np.ndarray, trims: Sequence[tuple[float, float]
     tau = coarse[0]
     if tau in (TAU_GRID_S[0], TAU_GRID_S[-1]):
         return None   # a time constant the grid cannot place: no tail to trust
-    best: tuple[float, float, float] | None = coarse
-    step = TAU_STEP
+    best, step = coarse, TAU_STEP
     for _ in range(REFINEMENTS):   # each pass spans the last one's neighbours with FINE_STEPS points
-        best = _best_fit(times, gap, trims, np.geomspace(tau / step, tau * step, FINE_STEPS))
-        if best is None:
+        refined = _best_fit(times, gap, trims, np.geomspace(tau / step, tau * step, FINE_STEPS))
+        if refined is None:
             return None
-        tau, step = best[0], step ** (2 / (FINE_STEPS - 1))
-    return None if best is None else best[1:]
+        best, tau, step = refined, refined[0], step ** (2 / (FINE_STEPS - 1))
+    return best[1:]
 
 
 def _best_fit(times: np.ndarray, gap: np.ndarray, trims: list[tuple[float, float]],

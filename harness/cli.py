@@ -5,10 +5,17 @@ from __future__ import annotations
 import argparse
 import contextlib
 import json
+import os
 import re
 import sys
 from pathlib import Path
 from typing import Any, Callable
+
+# numpy's OpenBLAS starts a pool of threads when numpy loads, and they spin for a while: about
+# 0.1 s of CPU in every command on this 2-core machine. The harness's linear algebra is on
+# matrices of a few rows (circuit solves, small fits), where one thread is as fast, so the pool
+# is kept to one thread unless the user's environment says otherwise. Set before numpy loads.
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 from harness.common.errors import HarnessError, InputError, UsageError
 

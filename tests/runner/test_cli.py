@@ -4,6 +4,9 @@ rebuilding runs, benchmarks that print their contract keys."""
 from __future__ import annotations
 
 import json
+import os
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -82,3 +85,17 @@ def test_a_record_given_to_run_says_what_to_do(tmp_path: Path) -> None:
 def test_unknown_scenario_is_a_usage_error(tmp_path: Path) -> None:
     proc = harness("run", str(ROOT / "sequences" / "routine_single_phase.yaml"), "--sim", "nosuch", data=tmp_path)
     assert proc.returncode == 2 and proc.stderr.startswith("harness: --sim: no scenario named 'nosuch'")
+
+
+@pytest.mark.parametrize("given, expected", [(None, "1"), ("4", "4")])
+def test_the_command_line_keeps_numpy_to_one_blas_thread_unless_told(given: str | None, expected: str) -> None:
+    """numpy's BLAS thread pool spins at load (about 0.1 s of CPU per command): the command line
+    asks for one thread before numpy loads, and a user's own setting stands."""
+    env = {k: v for k, v in os.environ.items() if k != "OPENBLAS_NUM_THREADS"}
+    if given is not None:
+        env["OPENBLAS_NUM_THREADS"] = given
+    code = ("import sys, os; import harness.cli; assert 'numpy' not in sys.modules; "
+            "print(os.environ['OPENBLAS_NUM_THREADS'])")
+    proc = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=60)
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.strip() == expected

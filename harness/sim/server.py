@@ -11,6 +11,7 @@ from __future__ import annotations
 import socket
 import sys
 import threading
+import time
 from typing import Iterable, TextIO
 
 from harness.common.clock import Clock
@@ -42,10 +43,11 @@ def resource_string(port: int) -> str:
 class _Listener:
     """One instrument's port: accepts connections, a thread for each."""
 
-    def __init__(self, device: Device, bay: Bay, stopping: threading.Event):
+    def __init__(self, device: Device, bay: Bay, stopping: threading.Event, reply_delay: float = 0.0):
         self.device = device
         self.bay = bay
         self.stopping = stopping
+        self.reply_delay = reply_delay
         self.sock = socket.create_server((HOST, 0))
         self.sock.settimeout(0.2)
         self.port = self.sock.getsockname()[1]
@@ -98,6 +100,8 @@ class _Listener:
         with self.bay.lock:
             reply = self.device.handle(message)
         if reply is not None:
+            if self.reply_delay:
+                _wait(self.reply_delay)
             conn.sendall(((GARBAGE if action == "garbage" else reply) + "\n").encode("ascii", "replace"))
         return True
 
@@ -118,11 +122,26 @@ class _Listener:
             self._close(conn)
 
 
-class SimServer:
-    """Serve a bay's instruments, one port per role; ``start()`` returns role -> resource string."""
+def _wait(seconds: float) -> None:
+    """An instrument's own time to answer, in real seconds: slept, then the last fraction of a
+    millisecond spun (a sleep overruns by tens of microseconds, which would blur a short delay)."""
+    until = time.perf_counter() + seconds
+    if seconds > 0.001:
+        time.sleep(seconds - 0.0005)
+    while time.perf_counter() < until:
+        pass
 
-    def __init__(self, bay: Bay):
+
+class SimServer:
+    """Serve a bay's instruments, one port per role; ``start()`` returns role -> resource string.
+    ``reply_delay``: real seconds each instrument takes to answer a query (none by default; a
+    benchmark uses it to stand for a real instrument's answering time)."""
+
+    def __init__(self, bay: Bay, reply_delay: float = 0.0):
+        if not 0.0 <= reply_delay <= 1.0:
+            raise ValueError("the reply delay is between 0 and 1 s")
         self.bay = bay
+        self.reply_delay = reply_delay
         self._stopping = threading.Event()
         self._listeners: dict[str, _Listener] = {}
 
@@ -130,7 +149,7 @@ class SimServer:
         if not self._listeners:
             self._stopping.clear()
             for role, factory in DEVICE_FACTORIES.items():
-                listener = _Listener(factory(self.bay), self.bay, self._stopping)
+                listener = _Listener(factory(self.bay), self.bay, self._stopping, self.reply_delay)
                 self._listeners[role] = listener
                 listener.thread.start()
         return self.resources()
@@ -155,11 +174,11 @@ class SimServer:
 
 
 def serve_forever(scenario: Scenario, time_scale: float = 1.0, faults: Iterable[str | FaultSpec] = (),
-                  out: TextIO = sys.stdout, stop: threading.Event | None = None) -> None:
+                  out: TextIO = sys.stdout, stop: threading.Event | None = None, reply_delay: float = 0.0) -> None:
     """Serve until interrupted (or ``stop`` is set); prints ``role resource`` lines first."""
     bay = Bay(scenario, Clock(time_scale), faults)
     stop = stop or threading.Event()
-    with SimServer(bay) as server:
+    with SimServer(bay, reply_delay) as server:
         for role, resource in server.resources().items():
             print(f"{role} {resource}", file=out, flush=True)
         try:

@@ -3,10 +3,15 @@
 from __future__ import annotations
 
 import math
+import time
 
 import pytest
+import pyvisa
 
+from harness.common.clock import SteppedClock
+from harness.sim.bay import Bay
 from harness.sim.scenario import load_scenario
+from harness.sim.server import SimServer
 from harness.sim.truth import series_branch
 
 DEFAULT = load_scenario("default")
@@ -189,3 +194,24 @@ def test_many_connections_in_sequence(default_bay):
         assert inst.query("*IDN?").startswith("Harness Sim,")
         inst.close()
     rm.close()
+
+
+def test_a_reply_delay_holds_every_answer_back_and_nothing_else() -> None:
+    """The server can stand for an instrument's own answering time (the overhead benchmark's
+    second series): a query is answered no sooner than the delay (a lower bound only: a sleep
+    never ends early, so no host timing can fail this); a write, which has no answer, still acts."""
+    with pytest.raises(ValueError, match="between 0 and 1 s"):
+        SimServer(Bay(load_scenario("default"), SteppedClock()), reply_delay=-0.1)
+    rm = pyvisa.ResourceManager("@py")
+    with SimServer(Bay(load_scenario("default"), SteppedClock()), reply_delay=0.05) as server:
+        res = rm.open_resource(server.resources()["source"], read_termination="\n", write_termination="\n",
+                               timeout=3000)
+        try:
+            began = time.perf_counter()
+            answer = res.query("*IDN?")
+            assert time.perf_counter() - began >= 0.05 and answer
+            res.write("VOLT 10")
+            assert float(res.query("VOLT?")) == 10.0  # the write took effect, the query came after it
+        finally:
+            res.close()
+            rm.close()

@@ -79,8 +79,9 @@ def bench_startup(rounds: int = ROUNDS) -> dict[str, Any]:
     }
 
 
-def verdict(value: float | None, goal: float) -> str:
-    """A figure against its goal (under it), said plainly."""
+def verdict(value: float | None, goal: float, at_most: bool = False) -> str:
+    """A figure against its goal (under it; ``at_most``: not over it), said plainly."""
     if value is None:
         return "not measured"
-    return f"{value:g} against < {goal:g}: {'met' if value < goal else 'NOT met'}"
+    met = value <= goal if at_most else value < goal
+    return f"{value:g} against {'≤' if at_most else '<'} {goal:g}: {'met' if met else 'NOT met'}"

@@ -143,6 +143,8 @@ def _parser() -> argparse.ArgumentParser:
     bench.add_argument("which", choices=["startup", "report", "overhead", "ramp", "sequence", "reduce", "store"])
     bench.add_argument("sequence", nargs="?", type=Path, help="the sequence (bench sequence)")
     bench.add_argument("--samples", type=_count, metavar="N", help="raw samples in the run (bench report)")
+    bench.add_argument("--time-scale", type=_scale, metavar="X",
+                       help="bay seconds per real second on the simulated bay (bench sequence, bench ramp)")
     bench.add_argument("--json", action="store_true")
     _store_option(bench, "the store to measure (bench store): a scratch SQLite store by default")
     return p
@@ -479,7 +481,10 @@ def cmd_bench(args: argparse.Namespace) -> int:
         raise UsageError("--samples is for bench report")
     if args.store is not None and args.which != "store":
         raise UsageError("--store is for bench store")
-    figures = run_benchmark(args.which, samples=args.samples, sequence=args.sequence, store=args.store)
+    if args.time_scale is not None and args.which not in ("sequence", "ramp"):
+        raise UsageError("--time-scale is for bench sequence and bench ramp")
+    figures = run_benchmark(args.which, samples=args.samples, sequence=args.sequence, store=args.store,
+                            time_scale=args.time_scale)
     if args.json:
         _emit(figures)
     else:

@@ -72,9 +72,18 @@ def test_benchmarks_print_their_figures(tmp_path: Path, args: tuple[str, ...], k
 
 
 def test_bench_options_belong_to_their_benchmark(tmp_path: Path) -> None:
-    for args in (("sequence",), ("reduce", "--samples", "10"), ("ramp", "sequences/routine_single_phase.yaml")):
+    for args in (("sequence",), ("reduce", "--samples", "10"), ("ramp", "sequences/routine_single_phase.yaml"),
+                 ("startup", "--time-scale", "5")):
         proc = harness("bench", *args, data=tmp_path)
         assert proc.returncode == 2 and "bench" in proc.stderr and "Traceback" not in proc.stderr
+
+
+def test_bench_sequence_runs_at_the_time_scale_asked(tmp_path: Path) -> None:
+    proc = harness("bench", "sequence", str(ROOT / "sequences" / "routine_single_phase.yaml"), "--time-scale", "200",
+                   "--json", data=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    figures = json.loads(proc.stdout)
+    assert figures["time_scale"] == 200.0 and figures["floor_s"] > 0
 
 
 def test_a_record_given_to_run_says_what_to_do(tmp_path: Path) -> None:

@@ -162,6 +162,12 @@ class PyvisaTransport:
             raise ConnectionLost("the transport is closed", self.name, command)
         return self._open(command)
 
+    @property
+    def visa_resource(self) -> Any:
+        """The open pyvisa resource of this session (None while closed): what a plain pyvisa
+        script on the same connection would use (the overhead benchmark's raw side)."""
+        return self._res
+
     def query(self, command: str) -> str:
         self.write(command)
         return self._read(command)

@@ -256,6 +256,20 @@ def test_reply_longer_than_one_chunk_is_read_whole_without_warnings(line_server,
         transport.close()
 
 
+def test_the_visa_resource_is_the_sessions_own_and_shares_its_connection(line_server) -> None:
+    """Plain pyvisa on the transport's resource (the overhead benchmark's raw side) goes over the
+    same connection as the transport: one connection at the server, replies in turn."""
+    server = line_server(lambda conn, line: line + b"\n")
+    transport = PyvisaTransport(server.resource, timeout_s=GUARD_S, name="analyser")
+    try:
+        raw = transport.visa_resource
+        assert raw.query("A?") == "A?" and transport.query("B?") == "B?" and raw.query("C?") == "C?"
+        assert len(server.received) == 3 and len({connection for connection, _ in server.received}) == 1
+    finally:
+        transport.close()
+    assert transport.visa_resource is None
+
+
 def test_closed_transport_refuses_work(line_server) -> None:
     server = line_server(lambda conn, line: b"1\n")
     transport = PyvisaTransport(server.resource, timeout_s=GUARD_S, name="source")

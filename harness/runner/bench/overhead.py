@@ -10,8 +10,8 @@ when due, the progress display, then the ramp controller's own per-reading work 
 quantity, the no-load current guard, the settling test). Each harness round ends by committing
 its samples, inside its time, so its store work is counted in it and never in a neighbour's.
 
-The raw side is what a lab script does: the resource's ``query`` of the same snapshot command
-and ``float`` of the fields. A third side, the harness's driver alone (``snapshot()``: its
+The raw side is what a lab script does: pyvisa's ``query`` of the same snapshot command and
+``float`` of the fields, on the driver's own session (the same connection: see ``_series``). A third side, the harness's driver alone (``snapshot()``: its
 transport and its parse, with the special-value checks), splits the harness's time into the
 instrument's and the loop's own (``loop_us_per_reading``). A fourth, the driver followed by
 5 us of busy work, shows what the host charges for any work at all between two queries
@@ -138,15 +138,17 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
 def _series(reply_delay: float, rounds: int, n: int, wanted: tuple[str, ...]) -> dict[str, list[float]]:
     """Per-reading microseconds of the ``wanted`` sides in each round, on a bay whose instruments
     answer ``reply_delay`` real seconds after a query."""
-    import pyvisa
-
     from harness.runner.steps.ramp import SETTLED_WINDOW_FACTOR, _settled, _stop_before_current_limit, measured
 
     with served_bay(reply_delay) as resources, tempfile.TemporaryDirectory(prefix="harness-bench-overhead-") as scratch, \
             _run_on(resources, Path(scratch)) as run:
-        rm = pyvisa.ResourceManager("@py")
-        raw = rm.open_resource(resources["analyser"], read_termination="\n", write_termination="\n", timeout=2000)
         analyser = run.bay.analyser
+        # The raw side queries through plain pyvisa on the driver's own session: the same socket
+        # and the same thread of the simulated instrument. On a loopback socket a connection's
+        # round trip is about 50 or about 120 us depending on where the host happens to run the
+        # instrument's thread for it (measured here: two connections side by side kept 51 and
+        # 117 us medians); two connections would measure that placement, not the loop.
+        raw = analyser.transport.visa_resource
         query = analyser.snapshot_command
         applied: list[tuple[float, float]] = []
         previous: list[Any] = [None]
@@ -174,11 +176,7 @@ def _series(reply_delay: float, rounds: int, n: int, wanted: tuple[str, ...]) ->
 
         sides: dict[str, Side] = {"raw": (raw_reading, None), "harness": (harness_reading, run.store.flush),
                                   "driver": (analyser.snapshot, None), "any_work": (any_work_reading, None)}
-        try:
-            return _alternating({name: sides[name] for name in wanted}, rounds, n)
-        finally:
-            raw.close()
-            rm.close()
+        return _alternating({name: sides[name] for name in wanted}, rounds, n)
 
 
 def _sim_analyser_us_per_update(n: int = 300) -> float:

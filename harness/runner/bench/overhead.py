@@ -166,7 +166,7 @@ def _series(reply_delay: float, rounds: int, n: int, wanted: tuple[str, ...]) ->
             _settled(applied, 0.0015, window)
 
         def raw_reading() -> None:
-            [float(v) for v in raw.query(query).replace(",", ";").split(";")]  # type: ignore[attr-defined]
+            [float(v) for v in raw.query(query).replace(",", ";").split(";")]
 
         def any_work_reading() -> None:  # the driver, then a few microseconds of work before the next query
             analyser.snapshot()

@@ -196,6 +196,8 @@ def _settle(samples: dict[str, np.ndarray], events: list[dict[str, Any]], ramp: 
 
 
 def bench_ramp(tolerance_pct: float = TOLERANCE_PCT, time_scale: float = TIME_SCALE) -> dict[str, Any]:
+    from harness.runner.bench.startup import verdict
+
     with tempfile.TemporaryDirectory(prefix="harness-bench-ramp-") as scratch:
         units = {name: _one_unit(Path(scratch), name, factor, tolerance_pct, time_scale) for name, factor in UNITS.items()}
     demo = units["default"]
@@ -204,6 +206,8 @@ def bench_ramp(tolerance_pct: float = TOLERANCE_PCT, time_scale: float = TIME_SC
             "baseline_ratio_to_floor": demo["baseline_ratio_to_floor"],
             "worst_ratio_to_floor": max(u["ratio_to_floor"] for u in units.values()),
             "worst_overshoot_pct": max(u["overshoot_pct"] for u in units.values()),
+            "goals": {f"{key} {name}": verdict(unit[key], TARGETS[key], at_most=True)
+                      for name, unit in units.items() for key in ("ratio_to_floor", "overshoot_pct")},
             "units": units, "tolerance_pct": tolerance_pct, "time_scale": time_scale,
             "baseline": f"proportional: setpoint += {P_SHARE} x error / nameplate gain, read after the slew + {P_PERIOD_S} s",
             "targets": TARGETS}

@@ -31,6 +31,7 @@ ENDS = ("off", "safe-state")
 
 def bench_sequence(sequence: Path | str, time_scale: float | None = None) -> dict[str, Any]:
     from harness.common.reading import SQRT3
+    from harness.runner.bench.startup import verdict
     from harness.runner.prepare import RunOptions, prepare
     from harness.runner.run import execute
     from harness.store import Store
@@ -91,7 +92,9 @@ def bench_sequence(sequence: Path | str, time_scale: float | None = None) -> dic
         parts["confirmations_s"] += update
     floor = sum(parts.values())
     bay = sum(end - begin for begin, end in stretches)
-    return {"bay_s": round(bay, 3), "floor_s": round(floor, 3), "ratio": round(bay / floor, 3) if floor else None,
+    ratio = round(bay / floor, 3) if floor else None
+    return {"bay_s": round(bay, 3), "floor_s": round(floor, 3), "ratio": ratio,
+            "goals": {"ratio": verdict(ratio, TARGET_RATIO, at_most=True)},
             "floor_parts": {k: round(v, 3) for k, v in parts.items()}, "by_step": by_step,
             "energised_stretches": len(stretches),
             "sequence": str(sequence), "time_scale": outcome_scale(options), "target_ratio": TARGET_RATIO}

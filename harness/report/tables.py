@@ -237,12 +237,19 @@ def circuit_rows(circuit: Mapping[str, Any]) -> list[tuple[str, list[str]]]:
     return [(label, [fmt.eng(circuit[s].get(key), "Ω") for s in sides]) for key, label in names]
 
 
+ALL_PHASES = "L1–L3"
+
+
 def reading_rows(readings: list[Mapping[str, Any]]) -> list[dict[str, Any]]:
-    """Statistics of the raw samples behind each reading, as text."""
+    """Statistics of the raw samples behind each reading, as text. A three-phase reading has a
+    row per phase (``channel`` 1-3: ``phase`` L1-L3) and one of the three together (no channel:
+    ALL_PHASES); a single-phase run's rows have no ``phase``."""
     quantities = ("u_rms", "u_mean", "i_rms", "p")
+    phased = any(r.get("channel") is not None for r in readings)
     return [
         {
             "tag": str(r.get("tag", fmt.DASH)), "step": fmt.num(r.get("step")) if r.get("step") is not None else fmt.DASH,
+            "phase": (f"L{r['channel']}" if r.get("channel") is not None else ALL_PHASES) if phased else None,
             "count": fmt.num(r.get("count")),
             "cells": [(fmt.num((r.get("mean") or {}).get(q)), fmt.num((r.get("std") or {}).get(q), 2)) for q in quantities],
             "stable": _stable_text(r.get("stable")), "stable_class": fmt.verdict_class(r.get("stable")),

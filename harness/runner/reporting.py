@@ -165,8 +165,8 @@ def _instrument(row: dict[str, Any]) -> dict[str, Any]:
 
 def _reading(row: dict[str, Any], labels: dict[int, str]) -> dict[str, Any]:
     quantities = ("u_rms", "u_mean", "i_rms", "p")
-    return {"tag": row["tag"], "step": labels.get(row["step_index"], row["step_index"]), "count": row["count"],
-            "mean": {q: row.get(f"{q}_mean") for q in quantities},
+    return {"tag": row["tag"], "step": labels.get(row["step_index"], row["step_index"]), "channel": row.get("channel"),
+            "count": row["count"], "mean": {q: row.get(f"{q}_mean") for q in quantities},
             "std": {q: row.get(f"{q}_std") for q in quantities}, "stable": bool(row["stable"])}
 
 

@@ -118,6 +118,22 @@ def test_reading_statistics_and_stability_in_words(demo, demo_html):
     assert fmt.num(first["mean"]["p"]) in text and fmt.num(first["std"]["p"], 2) in text
 
 
+def test_a_three_phase_readings_rows_say_their_phase(demo):
+    """A reading of a three-phase run is stored per phase (channel 1-3) and for the three together
+    (no channel): each row says which; a single-phase run's table has no phase column."""
+    first = demo.readings[0]
+    phased = [{**first, "channel": None}] + [{**first, "channel": ch} for ch in (1, 2, 3)]
+    html = render_html(dataclasses.replace(demo, readings=phased))
+    section = html[html.index('id="readings"'):]
+    section = section[:section.index("</section>")]
+    cells = re.findall(r"<td>(L[^<]*)</td>", section)
+    assert cells == ["L1–L3", "L1", "L2", "L3"] and ">Phase</th>" in section
+    assert "the three phases together" in section
+    single = render_html(demo)
+    single = single[single.index('id="readings"'):]
+    assert ">Phase</th>" not in single[:single.index("</section>")]
+
+
 def test_uncertainty_budget_rows(demo_html):
     text = strict_walk(demo_html).plain
     assert "Uncertainty budget" in text and "phase error at low power factor" in text and "k = 2" in text

@@ -20,7 +20,9 @@ asleep and must be woken (tens of microseconds on a virtual machine), a cost no 
 something per reading avoids and that a real instrument's millisecond replies would hide.
 A second, shorter series (raw and harness only) serves the bay with each instrument answering
 a millisecond after a query, as a fast LAN analyser does (``instrument_ratio``): the loop's own
-work against a real instrument's round trip.
+work against a real instrument's round trip. Last, ``Run.read()`` alone with the bay in its own
+process and served from threads of the run's own process, as ``harness run`` serves it
+(``in_process_ratio``): whether those threads hold a run back.
 
 Within each round the sides take turns in blocks of a few dozen readings, the order reversed
 every turn, so that a change of the machine's load (a shared host) weighs on all alike; the
@@ -131,6 +133,7 @@ def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[st
             "instrument_ratio_spread": round(max(slow_ratios) - min(slow_ratios), 4),
             "goals": {"ratio": verdict(round(statistics.median(ratios), 3), TARGET_RATIO, at_most=True),
                       "instrument_ratio": verdict(round(statistics.median(slow_ratios), 4), TARGET_RATIO, at_most=True)},
+            **_bay_placement(),
             "rounds": rounds, "readings_per_round": n, "target_ratio": TARGET_RATIO,
             "sim_analyser_us_per_update": round(_sim_analyser_us_per_update(), 2)}
 
@@ -177,6 +180,39 @@ def _series(reply_delay: float, rounds: int, n: int, wanted: tuple[str, ...]) ->
         sides: dict[str, Side] = {"raw": (raw_reading, None), "harness": (harness_reading, run.store.flush),
                                   "driver": (analyser.snapshot, None), "any_work": (any_work_reading, None)}
         return _alternating({name: sides[name] for name in wanted}, rounds, n)
+
+
+def _bay_placement(blocks: int = 20, block: int = 200) -> dict[str, float]:
+    """``Run.read()`` per reading with the simulated bay in its own process and with it served
+    from threads of the run's own process (as ``harness run`` serves it): whether those threads
+    hold a run back. Median of ``blocks`` blocks, own process before and after in-process."""
+    from harness.common.clock import Clock
+    from harness.sim.bay import Bay
+    from harness.sim.scenario import load_scenario
+    from harness.sim.server import SimServer
+
+    def per_reading(resources: dict[str, str]) -> float:
+        with tempfile.TemporaryDirectory(prefix="harness-bench-overhead-") as scratch, \
+                _run_on(resources, Path(scratch)) as run:
+            for _ in range(block):
+                run.read()
+            times = []
+            for _ in range(blocks):
+                began = time.perf_counter()
+                for _ in range(block):
+                    run.read()
+                times.append((time.perf_counter() - began) / block * 1e6)
+            return statistics.median(times)
+
+    with served_bay() as resources:
+        before = per_reading(resources)
+    with SimServer(Bay(load_scenario("default"), Clock(1.0))) as server:
+        in_process = per_reading(server.resources())
+    with served_bay() as resources:
+        after = per_reading(resources)
+    own = (before + after) / 2
+    return {"read_us_bay_own_process": round(own, 1), "read_us_bay_in_process": round(in_process, 1),
+            "in_process_ratio": round(in_process / own, 3)}
 
 
 def _sim_analyser_us_per_update(n: int = 300) -> float:

@@ -35,10 +35,11 @@ def write_run_reports(store: RunSource, run_id: str) -> Path:
     row = store.run(run_id)  # the run with its steps, events, instruments and readings
     thinners: dict[tuple[int, int], TraceThinner] = {}
     parquet = folder / "samples.parquet" if pyarrow_or_none() is not None else None
+    kinds = _kinds(row["steps"])
     with SampleFiles(csv_path=folder / "samples.csv", parquet_path=parquet) as files, _no_cycle_collection():
         for columns in store.sample_chunks(run_id):
             files.add(columns)
-            _thin(thinners, columns, row["steps"])
+            _thin(thinners, columns, kinds)
     paths = write_reports(folder, run_bundle(store, run_id, row, thinners))
     return Path(paths["html"])
 
@@ -73,8 +74,9 @@ def run_bundle(store: RunSource, run_id: str, row: dict[str, Any] | None = None,
     labels = {st["step_index"]: f"{st['step_index'] + 1}: {st['name']}" for st in steps}
     if thinners is None:
         thinners = {}
+        kinds = _kinds(steps)
         for columns in store.sample_chunks(run_id, ("step_index", "channel", "t", *_TRACE_KEYS)):
-            _thin(thinners, columns, steps)
+            _thin(thinners, columns, kinds)
     return ReportBundle(
         run=_run_meta(row, sequence),
         unit=unit_of(sequence),
@@ -170,14 +172,19 @@ def _reading(row: dict[str, Any], labels: dict[int, str]) -> dict[str, Any]:
             "std": {q: row.get(f"{q}_std") for q in quantities}, "stable": bool(row["stable"])}
 
 
+def _kinds(steps: list[dict[str, Any]]) -> dict[int, str]:
+    """Each step's kind, by its index."""
+    return {st["step_index"]: st["kind"] for st in steps}
+
+
 def _thin(thinners: dict[tuple[int, int], TraceThinner], columns: dict[str, np.ndarray],
-          steps: list[dict[str, Any]]) -> None:
+          kinds: dict[int, str]) -> None:
     """Feed one chunk of samples to the thinners of the steps and channels it holds: one
-    thinner for each channel of each step that draws a trace, made at its first sample."""
+    thinner for each channel of each step that draws a trace (``kinds``: each step's kind),
+    made at its first sample."""
     index = columns["step_index"]
     if not len(index):
         return
-    kinds = {st["step_index"]: st["kind"] for st in steps}
     # a step's samples are consecutive (its channels interleaved): cut the chunk where the step changes
     cuts = [0, *(np.flatnonzero(index[1:] != index[:-1]) + 1).tolist(), len(index)]
     for a, b in zip(cuts[:-1], cuts[1:]):
@@ -198,7 +205,7 @@ def _traces(thinners: dict[tuple[int, int], TraceThinner], steps: list[dict[str,
     """One trace per step; a three-phase step's trace has one line per channel (``phases``)."""
     limits = {e["data"]["step"]: e["data"]["limits"] for e in events
               if e["kind"] == "step-start" and isinstance(e.get("data"), dict)}
-    kinds = {st["step_index"]: st["kind"] for st in steps}
+    kinds = _kinds(steps)
     by_step: dict[int, list[dict[str, Any]]] = {}
     for (n, _), thinner in sorted(thinners.items()):
         kept = thinner.result()

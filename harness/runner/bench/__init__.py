@@ -33,3 +33,11 @@ def run_benchmark(name: str, **options: Any) -> dict[str, Any]:
     given = {k: v for k, v in options.items() if v is not None}
     figures: dict[str, Any] = getattr(importlib.import_module(module), function)(**given)
     return figures
+
+
+def verdict(value: float | None, goal: float, at_most: bool = False) -> str:
+    """A figure against its goal (under it; ``at_most``: not over it), said plainly."""
+    if value is None:
+        return "not measured"
+    met = value <= goal if at_most else value < goal
+    return f"{value:g} against {'≤' if at_most else '<'} {goal:g}: {'met' if met else 'NOT met'}"

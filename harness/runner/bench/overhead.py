@@ -43,6 +43,8 @@ import time
 from pathlib import Path
 from typing import Any, Callable, Iterator
 
+from harness.runner.bench import verdict
+
 ROUNDS = 20
 READINGS_PER_ROUND = 2000
 BLOCK = 50  # readings per turn of a side within a round
@@ -110,8 +112,6 @@ def _run_on(resources: dict[str, str], folder: Path) -> Iterator[Any]:
 
 
 def bench_overhead(rounds: int = ROUNDS, n: int = READINGS_PER_ROUND) -> dict[str, Any]:
-    from harness.runner.bench.startup import verdict
-
     us = _series(0.0, rounds, n, ("raw", "harness", "driver", "any_work"))
     ratios = [h / r for r, h in zip(us["raw"], us["harness"])]
     quartiles = statistics.quantiles(ratios, n=4) if len(ratios) > 1 else [ratios[0]] * 3

@@ -26,6 +26,8 @@ from unittest import mock
 import numpy as np
 import yaml
 
+from harness.runner.bench import verdict
+
 TOLERANCE_PCT = 0.3
 TIME_SCALE = 5.0
 UNITS = {"default": 1.0, "low-impedance": 0.5, "high-impedance": 2.5}
@@ -196,8 +198,6 @@ def _settle(samples: dict[str, np.ndarray], events: list[dict[str, Any]], ramp: 
 
 
 def bench_ramp(tolerance_pct: float = TOLERANCE_PCT, time_scale: float = TIME_SCALE) -> dict[str, Any]:
-    from harness.runner.bench.startup import verdict
-
     with tempfile.TemporaryDirectory(prefix="harness-bench-ramp-") as scratch:
         units = {name: _one_unit(Path(scratch), name, factor, tolerance_pct, time_scale) for name, factor in UNITS.items()}
     demo = units["default"]

@@ -20,7 +20,8 @@ from pathlib import Path
 from typing import Any
 
 from harness.runner.bench.children import run_child
-from harness.runner.bench.startup import EVALUATE_RECORD, examples_folder, installed_env, verdict
+from harness.runner.bench import verdict
+from harness.runner.bench.startup import EVALUATE_RECORD, examples_folder, installed_env
 
 SAMPLES = 1_000_000
 TARGETS = {"wall_s": 3.0, "peak_rss_mb": 150.0}

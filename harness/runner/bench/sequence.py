@@ -25,13 +25,14 @@ from typing import Any
 
 import numpy as np
 
+from harness.runner.bench import verdict
+
 TARGET_RATIO = 1.2
 ENDS = ("off", "safe-state")
 
 
 def bench_sequence(sequence: Path | str, time_scale: float | None = None) -> dict[str, Any]:
     from harness.common.reading import SQRT3
-    from harness.runner.bench.startup import verdict
     from harness.runner.prepare import RunOptions, prepare
     from harness.runner.run import execute
     from harness.store import Store

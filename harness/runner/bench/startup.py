@@ -17,6 +17,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
+from harness.runner.bench import verdict
 from harness.runner.bench.children import run_child
 
 ROUNDS = 5
@@ -78,10 +79,3 @@ def bench_startup(rounds: int = ROUNDS) -> dict[str, Any]:
         "rounds": rounds, "targets": TARGETS,
     }
 
-
-def verdict(value: float | None, goal: float, at_most: bool = False) -> str:
-    """A figure against its goal (under it; ``at_most``: not over it), said plainly."""
-    if value is None:
-        return "not measured"
-    met = value <= goal if at_most else value < goal
-    return f"{value:g} against {'≤' if at_most else '<'} {goal:g}: {'met' if met else 'NOT met'}"

@@ -19,8 +19,8 @@ import tempfile
 from pathlib import Path
 from typing import Any
 
-from harness.runner.bench.children import run_child
 from harness.runner.bench import verdict
+from harness.runner.bench.children import run_child
 from harness.runner.bench.startup import EVALUATE_RECORD, examples_folder, installed_env
 
 SAMPLES = 1_000_000

@@ -69,16 +69,23 @@ class RunOutcome:
         return dict(self.__dict__)
 
 
-def execute(options: RunOptions, store: RunStore, signals: StopSignals | None = None) -> RunOutcome:
+def execute(options: RunOptions, store: RunStore, signals: StopSignals | None = None,
+            clock: Clock | None = None) -> RunOutcome:
     """Run a sequence. Ctrl-C and SIGTERM stop the steps and are held everywhere else; give
-    ``signals`` to hold them also while the caller prints the outcome."""
+    ``signals`` to hold them also while the caller prints the outcome. ``clock``: the bay's clock
+    for a run on the built-in simulated bay (a test's ``SteppedClock``); by default the real clock
+    at the run's time scale."""
     with contextlib.ExitStack() as stack:
         if signals is None:
             signals = stack.enter_context(StopSignals())
         with signals.obeyed():  # nothing is begun or energised yet: a stop simply stops
             prepared = prepare(options)
             scale = options.time_scale or (DEFAULT_SIM_TIME_SCALE if prepared.station.simulated else 1.0)
-            clock = Clock(scale)
+            if clock is None:
+                clock = Clock(scale)
+            elif not prepared.station.simulated:
+                raise ValueError("only a run on the simulated bay takes a clock of its own")
+            scale = clock.time_scale
             station, station_text = prepared.station, prepared.station_text
             if prepared.serve is not None:
                 station, station_text = stack.enter_context(simulated_bay(prepared, options, clock))

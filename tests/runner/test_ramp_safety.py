@@ -5,6 +5,11 @@ scaled down (the same X/R), fed from a source that slews twenty times faster and
 sooner than the default one, so that a first setpoint that is too high shows before the controller
 can correct it. The sequence gives no guaranteed impedance. That distribution units go down to
 about 2 % impedance and special units lower is common practice, no source.
+
+Every run here is on a ``SteppedClock``: the bay's time moves only when the runner sleeps, so the
+bay time between two readings is the update interval whatever the host's load, and a run gives
+the same readings every time. (On the scaled real clock a busy host stretched it: the source
+slewed on between two late readings, and a test of what the ramp sees next depended on the host.)
 """
 
 from __future__ import annotations
@@ -17,6 +22,7 @@ import numpy as np
 import pytest
 import yaml
 
+from harness.common.clock import SteppedClock
 from harness.runner.prepare import RunOptions
 from harness.runner.run import execute
 from harness.runner.steps.ramp import RampResult
@@ -25,7 +31,6 @@ from harness.store import Store
 
 ROOT = Path(__file__).resolve().parents[2]
 ROUTINE = ROOT / "sequences" / "routine_single_phase.yaml"
-TIME_SCALE = 20.0
 
 RAMPS = [("to 70 %", "70 %"), ("to 110 %", "110 %"), ("down to 50 %", "50 %")]
 TOLERANCE_PCT = 0.3   # the ramp's default
@@ -62,16 +67,15 @@ def sequence_text(ramps: list[tuple[str, str]], quantity: str = "current", drop_
     return head + "steps:\n" + "\n".join(steps) + "\n"
 
 
-def run(tmp_path: Path, scenario: Scenario | None, text: str,
-        time_scale: float = TIME_SCALE) -> tuple[Any, dict[str, np.ndarray], list[dict[str, Any]]]:
-    options = RunOptions(tmp_path / "seq.yaml", yes=True, time_scale=time_scale, quiet=True)
+def run(tmp_path: Path, scenario: Scenario | None, text: str) -> tuple[Any, dict[str, np.ndarray], list[dict[str, Any]]]:
+    options = RunOptions(tmp_path / "seq.yaml", yes=True, quiet=True)
     options.sequence.write_text(text, encoding="utf-8")
     if scenario is not None:
         path = tmp_path / "scenario.yaml"
         path.write_text(yaml.safe_dump(scenario.model_dump(mode="json")), encoding="utf-8")
         options.scenario = str(path)
     with Store(tmp_path / "data") as store:
-        outcome = execute(options, store)
+        outcome = execute(options, store, clock=SteppedClock())
         return outcome, store.samples(outcome.run_id), store.events(outcome.run_id)
 
 
@@ -116,11 +120,10 @@ def test_first_setpoint_stays_below_the_target_on_a_unit_below_the_assumed_lowes
 def test_no_load_ramp_stops_before_the_current_limit(tmp_path: Path) -> None:
     """520 V is 125 % of the LV's 415 V: the default unit's core is far into its knee there. With
     no guaranteed no-load current the checks cannot predict it; the ramp must stop raising before
-    a reading reaches the step's 6 A. A slower clock than the other tests: the guard looks two
-    readings ahead, and a busy host must not stretch the bay time between readings much further."""
+    a reading reaches the step's 6 A."""
     text = sequence_text([("to 515 V", "515 V")], quantity="voltage", drop_guarantee="  no_load_current: 2 %\n")
     text = text.replace("voltage: 515 V}", "voltage: 515 V, limits: {current: 6 A}}")
-    outcome, samples, _ = run(tmp_path, None, text, time_scale=5.0)
+    outcome, samples, _ = run(tmp_path, None, text)
     assert outcome.status == "tripped" and outcome.exit_code == 3
     assert outcome.trip["cause"].startswith("no-load ramp stopped at"), outcome.trip
     assert samples["i_rms"].max() < 6.0

@@ -83,8 +83,8 @@ def execute(options: RunOptions, store: RunStore, signals: StopSignals | None = 
             scale = options.time_scale or (DEFAULT_SIM_TIME_SCALE if prepared.station.simulated else 1.0)
             if clock is None:
                 clock = Clock(scale)
-            elif not prepared.station.simulated:
-                raise ValueError("only a run on the simulated bay takes a clock of its own")
+            elif prepared.serve is None:
+                raise ValueError("only a run on the built-in simulated bay takes a clock of its own")
             scale = clock.time_scale
             station, station_text = prepared.station, prepared.station_text
             if prepared.serve is not None:

@@ -64,7 +64,11 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--allow-mismatch", action="store_true",
                      help="run on a simulated unit whose nameplate differs from the sequence's")
     run.add_argument("--fault", action="append", default=[], metavar="NAME", help="inject a fault (simulated bay)")
-    run.add_argument("--time-scale", type=_scale, metavar="X", help="simulated bay speed-up (default 20)")
+    pace = run.add_mutually_exclusive_group()
+    pace.add_argument("--time-scale", type=_scale, metavar="X", help="simulated bay speed-up (default 20)")
+    pace.add_argument("--stepped-clock", action="store_true",
+                      help="built-in simulated bay: bay time moves only while the runner waits - as fast as the "
+                           "host computes, the same readings every time (for CI)")
     run.add_argument("--yes", action="store_true", help="answer prompts (simulated bay only)")
     run.add_argument("--json", action="store_true")
     run.add_argument("--pdf", action="store_true", help="also print the report to report.pdf (headless Chromium)")
@@ -205,8 +209,8 @@ def cmd_run(args: argparse.Namespace) -> int:
     from harness.runner.summary import print_outcome
 
     # At a terminal, a run that stopped shows its outcome at once; its report follows in the background.
-    options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.yes,
-                         quiet=args.json, defer_stopped_report=not args.json, pdf=args.pdf,
+    options = RunOptions(args.sequence, args.station, args.sim, tuple(args.fault), args.time_scale, args.stepped_clock,
+                         args.yes, quiet=args.json, defer_stopped_report=not args.json, pdf=args.pdf,
                          allow_mismatch=args.allow_mismatch)
     if args.pdf:
         from harness.report.pdf import find_chromium

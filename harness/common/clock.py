@@ -42,6 +42,10 @@ class Clock:
         """The real-time length of ``bay_seconds`` (for socket timeouts)."""
         return bay_seconds / self.time_scale
 
+    def pace(self) -> str:
+        """How bay time runs, for the event log."""
+        return f"at {self.time_scale:g} x real time"
+
 
 class Cadence:
     """Readings at a fixed interval: the n-th wait ends ``n * interval`` bay seconds after the
@@ -68,7 +72,8 @@ class Cadence:
 
 class SteppedClock(Clock):
     """A clock that moves only when its owner sleeps: bay time then depends on the calls made,
-    never on how fast the host runs them.
+    never on how fast the host runs them. ``harness run --stepped-clock`` runs the built-in
+    simulated bay on one: the runner is the one thread that sleeps.
 
     For driving the simulated bay from one thread (a test): that thread's ``sleep`` advances the
     bay's time; the bay's server threads only read ``now``. A command sent without waiting for
@@ -93,3 +98,6 @@ class SteppedClock(Clock):
         if not event.is_set():
             self.sleep(bay_seconds)
         return event.is_set()
+
+    def pace(self) -> str:
+        return "on a stepped clock (bay time moves only while the runner waits)"

@@ -145,6 +145,9 @@ def _sign_off_order(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
 
 
 def time_scale_text(scale: Any) -> str | None:
+    if scale == "stepped":
+        return ("Simulated bay on a stepped clock: bay time moved only while the runner waited, so every time "
+                "shown (event log, trace axes) is in the bay's seconds and none is the run's duration.")
     if not fmt.is_number(scale):
         return None
     return (f"Simulated bay run at {fmt.num(scale)} × real time: every time shown (event log, trace axes) "

@@ -29,6 +29,9 @@ class RunOptions:
     the sequence's own ``rehearse.scenario``, else the built-in default."""
     faults: tuple[str, ...] = ()
     time_scale: float | None = None
+    stepped_clock: bool = False
+    """The built-in simulated bay on a stepped clock: bay time moves only while the runner waits,
+    so a run takes what the host needs to compute it and gives the same readings every time."""
     yes: bool = False
     quiet: bool = False
     defer_stopped_report: bool = False
@@ -102,6 +105,9 @@ def prepare(options: RunOptions) -> Prepared:
                          station_file, 1, 1)
     if options.time_scale not in (None, 1.0) and not station.simulated:
         raise InputError("--time-scale is for the simulated bay only; a real bay runs in real time", station_file, 1, 1)
+    if options.stepped_clock and serve is None:
+        raise InputError("--stepped-clock is for the built-in simulated bay only: a bay served by another process "
+                         "keeps its own clock", station_file, 1, 1)
     return Prepared(sequence, loaded.text, station, station_text, station_file, scenario, scenario_name,
                     scenario_text, serve, calibration_lines(station, today))
 

@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING, Any, Iterator
 
 from drivers.errors import InstrumentError, InstrumentReportedError
 from harness import __version__
-from harness.common.clock import Clock
+from harness.common.clock import Clock, SteppedClock
 from harness.config.station import Station
 from harness.runner.bay import open_bay
 from harness.runner.context import Run
@@ -69,30 +69,23 @@ class RunOutcome:
         return dict(self.__dict__)
 
 
-def execute(options: RunOptions, store: RunStore, signals: StopSignals | None = None,
-            clock: Clock | None = None) -> RunOutcome:
+def execute(options: RunOptions, store: RunStore, signals: StopSignals | None = None) -> RunOutcome:
     """Run a sequence. Ctrl-C and SIGTERM stop the steps and are held everywhere else; give
-    ``signals`` to hold them also while the caller prints the outcome. ``clock``: the bay's clock
-    for a run on the built-in simulated bay (a test's ``SteppedClock``); by default the real clock
-    at the run's time scale."""
+    ``signals`` to hold them also while the caller prints the outcome."""
     with contextlib.ExitStack() as stack:
         if signals is None:
             signals = stack.enter_context(StopSignals())
         with signals.obeyed():  # nothing is begun or energised yet: a stop simply stops
             prepared = prepare(options)
             scale = options.time_scale or (DEFAULT_SIM_TIME_SCALE if prepared.station.simulated else 1.0)
-            if clock is None:
-                clock = Clock(scale)
-            elif prepared.serve is None:
-                raise ValueError("only a run on the built-in simulated bay takes a clock of its own")
-            scale = clock.time_scale
+            clock = SteppedClock() if options.stepped_clock else Clock(scale)
             station, station_text = prepared.station, prepared.station_text
             if prepared.serve is not None:
                 station, station_text = stack.enter_context(simulated_bay(prepared, options, clock))
         run_id = store.begin_run(
             unit=prepared.sequence.unit.serial, lab=station.lab, station_name=station.name,
             sequence_text=prepared.sequence_text, station_text=station_text, software_version=__version__,
-            simulated={"scenario": prepared.scenario_name, "faults": list(options.faults), "time_scale": scale} if station.simulated else None)
+            simulated={"scenario": prepared.scenario_name, "faults": list(options.faults), "time_scale": "stepped" if options.stepped_clock else scale} if station.simulated else None)
         progress = GuardedDisplay(stack.enter_context(Progress(quiet=options.quiet)))
         recorder = Recorder(store, run_id)
         try:
@@ -195,8 +188,7 @@ def _start_at_zero(run: Run) -> None:
         raise Trip("the source did not confirm output off at zero volts before the run", step="start")
     _arm_source_protection(run)
     run.update_interval = run.measure_averaging = run.bay.analyser.averaging()
-    scale = run.clock.time_scale
-    simulated = (f"; simulated bay at {scale:g} x real time: every time shown is in the bay's seconds"
+    simulated = (f"; simulated bay {run.clock.pace()}: every time shown is in the bay's seconds"
                  if run.station.simulated else "")
     run.event("ready", f"instruments identified; source output off at zero volts; analyser updates every "
                        f"{run.update_interval:g} s{simulated}")

@@ -41,7 +41,7 @@ def own_temp_folder(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
 
 
 def run_short(store: Store, **options: Any) -> run_module.RunOutcome:
-    return execute(RunOptions(SHORT, yes=True, quiet=True, time_scale=50, **options), store)
+    return execute(RunOptions(SHORT, yes=True, quiet=True, stepped_clock=True, **options), store)
 
 
 def journal_ids(path: str | Path) -> list[int]:
@@ -159,7 +159,7 @@ def test_a_corrupt_store_file_mid_run_through_the_cli(tmp_path: Path) -> None:
             store.add_sample(earlier, 0, k, 1, 1.0, 1.0, 1.0, 1.0, 50.0, 0.0)
         store.finish_run(earlier, "passed", 0, None, None, None)
     _corrupt_samples_table(tmp_path / "harness.sqlite")
-    proc = harness("run", str(SHORT), "--yes", "--time-scale", "50", data=tmp_path)
+    proc = harness("run", str(SHORT), "--yes", "--stepped-clock", data=tmp_path)
     assert proc.returncode == 3, proc.stderr + proc.stdout
     assert "Traceback" not in proc.stderr
     assert "malformed" in proc.stdout and "journal" in proc.stdout

@@ -23,7 +23,7 @@ CASES = [
 
 @pytest.mark.parametrize("fault,code,status,words,step", CASES, ids=[c[0] for c in CASES])
 def test_fault_ends_as_stated(tmp_path: Path, fault: str, code: int, status: str, words: str, step: str | None) -> None:
-    exit_code, doc, stderr = run_json(str(ROUTINE), "--yes", "--fault", fault, data=tmp_path)
+    exit_code, doc, stderr = run_json(str(ROUTINE), "--yes", "--stepped-clock", "--fault", fault, data=tmp_path)
     assert (exit_code, doc["status"], doc["exit_code"]) == (code, status, code)
     trip = doc["trip"]
     assert words in trip["text"]

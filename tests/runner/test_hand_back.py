@@ -17,7 +17,7 @@ SHORT = ROOT / "tests" / "runner" / "sequences" / "no_load_only.yaml"
 
 def test_a_stopped_run_hands_back_before_its_report_which_is_still_written(tmp_path: Path) -> None:
     with Store(tmp_path) as store:
-        outcome = execute(RunOptions(SHORT, faults=("shorted-turn",), yes=True, quiet=True, time_scale=50,
+        outcome = execute(RunOptions(SHORT, faults=("shorted-turn",), yes=True, quiet=True, stepped_clock=True,
                                      defer_stopped_report=True), store)
         assert (outcome.status, outcome.report) == ("tripped", None)
         assert store.run(outcome.run_id)["status"] == "tripped"  # the outcome is in the store already
@@ -29,5 +29,5 @@ def test_a_stopped_run_hands_back_before_its_report_which_is_still_written(tmp_p
 
 def test_a_completed_run_has_its_report_before_the_outcome(tmp_path: Path) -> None:
     with Store(tmp_path) as store:
-        outcome = execute(RunOptions(SHORT, yes=True, quiet=True, time_scale=50, defer_stopped_report=True), store)
+        outcome = execute(RunOptions(SHORT, yes=True, quiet=True, stepped_clock=True, defer_stopped_report=True), store)
     assert outcome.exit_code in (0, 1) and Path(outcome.report).is_file()

@@ -12,7 +12,7 @@ from tests.runner.conftest import ROOT, run_json
 
 def test_ieee_run_corrects_no_load_loss_to_20C(tmp_path: Path) -> None:
     code, document, _ = run_json(str(ROOT / "sequences" / "routine_ieee_single_phase.yaml"), "--yes",
-                                 "--time-scale", "50", data=tmp_path)
+                                 "--stepped-clock", data=tmp_path)
     assert code == 0, document
     results = document.get("results", document)
     nl = results["no_load"]

@@ -36,7 +36,7 @@ def on_load(path: Path) -> Path:
 def run(sequence: Path, folder: Path, *faults: str) -> tuple[RunOutcome, list[dict[str, Any]]]:
     with Store(folder) as store:
         outcome = execute(RunOptions(sequence, scenario="three-phase", faults=faults, yes=True, quiet=True,
-                                     time_scale=100), store)
+                                     stepped_clock=True), store)
         return outcome, store.events(outcome.run_id)
 
 

@@ -6,9 +6,9 @@ sooner than the default one, so that a first setpoint that is too high shows bef
 can correct it. The sequence gives no guaranteed impedance. That distribution units go down to
 about 2 % impedance and special units lower is common practice, no source.
 
-Every run here is on a ``SteppedClock``: the bay's time moves only when the runner sleeps, so the
-bay time between two readings is the update interval whatever the host's load, and a run gives
-the same readings every time. (On the scaled real clock a busy host stretched it: the source
+Every run here is on a stepped clock (``stepped_clock``): the bay's time moves only when the
+runner sleeps, so the bay time between two readings is the update interval whatever the host's
+load, and a run gives the same readings every time. (On the scaled real clock a busy host stretched it: the source
 slewed on between two late readings, and a test of what the ramp sees next depended on the host.)
 """
 
@@ -22,7 +22,6 @@ import numpy as np
 import pytest
 import yaml
 
-from harness.common.clock import SteppedClock
 from harness.runner.prepare import RunOptions
 from harness.runner.run import execute
 from harness.runner.steps.ramp import RampResult
@@ -68,14 +67,14 @@ def sequence_text(ramps: list[tuple[str, str]], quantity: str = "current", drop_
 
 
 def run(tmp_path: Path, scenario: Scenario | None, text: str) -> tuple[Any, dict[str, np.ndarray], list[dict[str, Any]]]:
-    options = RunOptions(tmp_path / "seq.yaml", yes=True, quiet=True)
+    options = RunOptions(tmp_path / "seq.yaml", yes=True, quiet=True, stepped_clock=True)
     options.sequence.write_text(text, encoding="utf-8")
     if scenario is not None:
         path = tmp_path / "scenario.yaml"
         path.write_text(yaml.safe_dump(scenario.model_dump(mode="json")), encoding="utf-8")
         options.scenario = str(path)
     with Store(tmp_path / "data") as store:
-        outcome = execute(options, store, clock=SteppedClock())
+        outcome = execute(options, store)
         return outcome, store.samples(outcome.run_id), store.events(outcome.run_id)
 
 

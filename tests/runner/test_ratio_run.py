@@ -1,4 +1,4 @@
-"""The ratio step end to end on the simulated bays (time scale 50).
+"""The ratio step end to end on the simulated bays (on a stepped clock: the same readings every run).
 
 The routine sequences' own nameplate and ratio step, run alone: on the three-phase Dyn11 unit
 and the single-phase demo unit every tap's measured ratio is within 0.05 % of the model's true
@@ -36,7 +36,7 @@ def ratio_sequence(scenario: str, folder: Path) -> Path:
 
 
 def run_ratio(scenario: str, folder: Path, *faults: str) -> tuple[int, dict]:
-    args = [str(ratio_sequence(scenario, folder)), "--sim", scenario, "--yes", "--time-scale", "50"]
+    args = [str(ratio_sequence(scenario, folder)), "--sim", scenario, "--yes", "--stepped-clock"]
     for fault in faults:
         args += ["--fault", fault]
     code, doc, _ = run_json(*args, data=folder)
@@ -98,6 +98,6 @@ def test_ratio_readings_average_distinct_analyser_updates_and_a_frozen_analyser_
     monkeypatch.setattr(PowerAnalyser, "voltages", voltages)
     with Store(tmp_path / "data") as store:
         outcome = execute(RunOptions(ratio_sequence("default", tmp_path), scenario="default", yes=True, quiet=True,
-                                     time_scale=100), store)
+                                     stepped_clock=True), store)
     assert (outcome.status, outcome.exit_code) == ("tripped", 3) and outcome.safe_state["confirmed"]
     assert outcome.trip is not None and "voltages did not change over 180 readings" in outcome.trip["cause"]  # 3 x the 60 asked

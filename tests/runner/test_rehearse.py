@@ -22,7 +22,7 @@ UNITS = ["routine_3kva_single_phase.yaml", "routine_10kva_11kv_single_phase.yaml
 @pytest.fixture(scope="module", params=UNITS, ids=[u.split("_")[1] for u in UNITS])
 def rehearsal(request, tmp_path_factory):
     data = tmp_path_factory.mktemp("rehearse")
-    code, doc, _ = run_json(str(SEQUENCES / request.param), "--sim", "nameplate", "--yes", "--time-scale", "50",
+    code, doc, _ = run_json(str(SEQUENCES / request.param), "--sim", "nameplate", "--yes", "--stepped-clock",
                             data=data)
     return request.param, code, doc
 
@@ -131,10 +131,11 @@ def test_check_a_folder(tmp_path: Path) -> None:
 
 
 def test_a_three_phase_unit_from_its_nameplate(tmp_path: Path) -> None:
-    """The 400 kVA Dyn11 sequence on the unit built from its nameplate (time scale 20: on a loaded
-    host a faster bay puts the no-load ramp's readings far apart, and its guard extrapolates them)."""
+    """The 400 kVA Dyn11 sequence on the unit built from its nameplate (on a stepped clock: the
+    no-load ramp's guard extrapolates from the last two readings, which a loaded host would put
+    far apart on a fast real clock)."""
     name = "routine_three_phase.yaml"
-    code, doc, _ = run_json(str(SEQUENCES / name), "--sim", "nameplate", "--yes", "--time-scale", "20", data=tmp_path)
+    code, doc, _ = run_json(str(SEQUENCES / name), "--sim", "nameplate", "--yes", "--stepped-clock", data=tmp_path)
     assert (code, doc["status"]) == (0, "passed"), doc["trip"]
     g, r = _guarantees(name), doc["results"]
     assert r["no_load"]["loss_W"] == pytest.approx(_si(g["no_load_loss"]), rel=0.01)

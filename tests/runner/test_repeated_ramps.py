@@ -12,7 +12,7 @@ from tests.runner.conftest import ROOT, run_json
 
 
 def test_raw_loss_drifts_and_corrected_loss_holds(tmp_path: Path) -> None:
-    code, doc, _ = run_json(str(ROOT / "sequences" / "repeated_load_ramps.yaml"), "--yes", "--time-scale", "60",
+    code, doc, _ = run_json(str(ROOT / "sequences" / "repeated_load_ramps.yaml"), "--yes", "--stepped-clock",
                             data=tmp_path)
     assert code == 0, (doc["trip"], doc["warnings"])
     series = doc["results"]["load_series"]

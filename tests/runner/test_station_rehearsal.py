@@ -42,7 +42,7 @@ def test_the_simulated_bay_takes_the_station_as_it_says() -> None:
 
 def test_rehearse_the_station(tmp_path: Path) -> None:
     code, doc, _ = run_json(str(SEQUENCE), "--station", str(STATION), "--sim", "nameplate", "--yes",
-                            "--time-scale", "50", data=tmp_path)
+                            "--stepped-clock", data=tmp_path)
     assert (code, doc["status"]) == (0, "passed"), doc["trip"]
     r = doc["results"]
     assert r["no_load"]["loss_W"] == pytest.approx(60.0, rel=0.01)

@@ -20,7 +20,7 @@ CASES = [("routine_three_phase.yaml", "three-phase"), ("routine_large_three_phas
 def three_phase_run(request, tmp_path_factory):
     sequence, scenario = request.param
     data = tmp_path_factory.mktemp(scenario)
-    code, doc, _ = run_json(str(ROOT / "sequences" / sequence), "--sim", scenario, "--yes", data=data)
+    code, doc, _ = run_json(str(ROOT / "sequences" / sequence), "--sim", scenario, "--yes", "--stepped-clock", data=data)
     truth = json.loads(harness("sim", "truth", scenario, "--json", data=data).stdout)
     return code, doc, truth, data
 
@@ -73,7 +73,7 @@ def test_every_channel_of_every_reading_is_stored(three_phase_run) -> None:
 ])
 def test_phase_faults_trip_with_the_phase_named(tmp_path, fault, phase, words) -> None:
     code, doc, _ = run_json(str(ROOT / "sequences" / "routine_three_phase.yaml"), "--sim", "three-phase",
-                            "--fault", fault, "--time-scale", "50", "--yes", data=tmp_path)
+                            "--fault", fault, "--stepped-clock", "--yes", data=tmp_path)
     assert (code, doc["status"]) == (3, "tripped"), doc["trip"]
     assert doc["trip"]["phase"] == phase and f"phase {phase}" in doc["trip"]["text"] and words in doc["trip"]["text"]
     assert doc["safe_state"]["confirmed"] is True

@@ -26,10 +26,10 @@ EXIT_MEANING = {1: "completed outside its guarantees' tolerances", 2: "invalid (
                 3: "tripped (safe state confirmed)", 4: "aborted (safe state confirmed)",
                 5: "ENDED UNSAFE: the safe state was not confirmed"}
 DEFAULT_SIM = "nameplate"
-# The run's own default speed-up. Faster works on an idle host, but on a loaded one the bay
-# seconds between two readings grow with the speed-up, and the no-load ramp's guard, which
-# extrapolates two more steps like the last, may then stop a ramp that would have been fine.
-DEFAULT_TIME_SCALE = 20.0
+# By default a rehearsal runs on the stepped clock (``harness run --stepped-clock``): its outcome
+# is the same on an idle host and a loaded CI runner. On a fast real clock a loaded host puts the
+# bay seconds between two readings far apart, and the no-load ramp's guard, which extrapolates two
+# more steps like the last, may then stop a ramp that would have been fine.
 
 
 def pytest_addoption(parser: pytest.Parser) -> None:
@@ -39,8 +39,9 @@ def pytest_addoption(parser: pytest.Parser) -> None:
     group.addoption("--rehearse-sim", default=DEFAULT_SIM, metavar="SCENARIO",
                     help="the simulated unit of sequences that name none in rehearse.scenario "
                          "(default: nameplate, a unit built from the sequence's own nameplate)")
-    group.addoption("--rehearse-time-scale", type=float, default=DEFAULT_TIME_SCALE, metavar="X",
-                    help=f"simulated bay speed-up (default {DEFAULT_TIME_SCALE:g}, the run's own)")
+    group.addoption("--rehearse-time-scale", type=float, default=None, metavar="X",
+                    help="run the simulated bay on the real clock at this speed-up (default: the stepped "
+                         "clock, as fast as the host computes, the same outcome every time)")
     group.addoption("--rehearse-timeout", type=float, default=1800.0, metavar="SECONDS",
                     help="real seconds after which a rehearsal counts as stuck (default 1800)")
     group.addoption("--rehearse-data", type=Path, metavar="DIR",
@@ -111,8 +112,9 @@ class RehearsalFailed(Exception):
 class RehearsalItem(pytest.Item):
     def runtest(self) -> None:
         scenario = self._scenario()
+        scale = self.config.getoption("rehearse_time_scale")
         command = [sys.executable, "-m", "harness.cli", "run", str(self.path), "--yes", "--json",
-                   "--time-scale", f"{self.config.getoption('rehearse_time_scale'):g}"]
+                   *(["--stepped-clock"] if scale is None else ["--time-scale", f"{scale:g}"])]
         if scenario is not None:
             command += ["--sim", scenario]
         env = {**os.environ, "HARNESS_DATA": str(self.config.stash[_DATA])}

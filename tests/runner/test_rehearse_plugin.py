@@ -42,7 +42,7 @@ def test_a_broken_sequence_fails_exactly_its_own_item(tmp_path: Path) -> None:
     report = tmp_path / "out.xml"
     env = {**os.environ, "PYTHONPATH": os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")])}
     proc = subprocess.run([sys.executable, "-m", "pytest", *_plugin_args(), "--rehearse", str(folder),
-                           f"--junitxml={report}", "--rehearse-data", str(tmp_path / "runs"), "--rehearse-time-scale", "50", "-p", "no:cacheprovider",
+                           f"--junitxml={report}", "--rehearse-data", str(tmp_path / "runs"), "-p", "no:cacheprovider",
                            "-q"], capture_output=True, text=True, cwd=tmp_path, env=env, timeout=600)
     assert proc.returncode == 1, proc.stdout + proc.stderr
     cases = {c.get("classname"): c for c in ET.parse(report).getroot().iter("testcase")}

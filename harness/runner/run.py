@@ -79,13 +79,14 @@ def execute(options: RunOptions, store: RunStore, signals: StopSignals | None = 
             prepared = prepare(options)
             scale = options.time_scale or (DEFAULT_SIM_TIME_SCALE if prepared.station.simulated else 1.0)
             clock = SteppedClock() if options.stepped_clock else Clock(scale)
+            pace: float | str = "stepped" if options.stepped_clock else scale
             station, station_text = prepared.station, prepared.station_text
             if prepared.serve is not None:
                 station, station_text = stack.enter_context(simulated_bay(prepared, options, clock))
         run_id = store.begin_run(
             unit=prepared.sequence.unit.serial, lab=station.lab, station_name=station.name,
             sequence_text=prepared.sequence_text, station_text=station_text, software_version=__version__,
-            simulated={"scenario": prepared.scenario_name, "faults": list(options.faults), "time_scale": "stepped" if options.stepped_clock else scale} if station.simulated else None)
+            simulated={"scenario": prepared.scenario_name, "faults": list(options.faults), "time_scale": pace} if station.simulated else None)
         progress = GuardedDisplay(stack.enter_context(Progress(quiet=options.quiet)))
         recorder = Recorder(store, run_id)
         try:

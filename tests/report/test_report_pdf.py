@@ -100,7 +100,7 @@ def test_pages_as_images_are_inked_and_show_the_approval_mark(demo_pdf, tmp_path
 
 
 def test_a_run_with_pdf_prints_every_certificate_section(tmp_path):
-    code, doc, err = run_json(str(ROUTINE), "--yes", "--time-scale", "100", "--pdf", data=tmp_path)
+    code, doc, err = run_json(str(ROUTINE), "--yes", "--stepped-clock", "--pdf", data=tmp_path)
     assert (code, doc["status"]) == (0, "passed"), (doc["trip"], err)
     pdf = Path(doc["folder"]) / "report.pdf"
     pages, footers = page_texts(pdf)
@@ -108,6 +108,6 @@ def test_a_run_with_pdf_prints_every_certificate_section(tmp_path):
     for text in ("Nameplate", "ONAN", "105 °C (IEC 60085)", "IEC 60076-1:2011", "Results against guarantees",
                  "NOT YET APPROVED", "Calibration of the instruments", "(matches *IDN?)", "Winding resistance",
                  "At reference temperature (Ω)", "Temperatures", "ambient and oil before the test",
-                 "run at 100 × real time", "Excitation curve", "Event log"):
+                 "on a stepped clock", "Excitation curve", "Event log"):
         assert text in whole, text
     assert all(f"run {doc['run_id']}" in " ".join(f.split()) for f in footers)

@@ -86,7 +86,8 @@ def execute(options: RunOptions, store: RunStore, signals: StopSignals | None = 
         run_id = store.begin_run(
             unit=prepared.sequence.unit.serial, lab=station.lab, station_name=station.name,
             sequence_text=prepared.sequence_text, station_text=station_text, software_version=__version__,
-            simulated={"scenario": prepared.scenario_name, "faults": list(options.faults), "time_scale": pace} if station.simulated else None)
+            simulated={"scenario": prepared.scenario_name, "faults": list(options.faults), "time_scale": pace}
+            if station.simulated else None)
         progress = GuardedDisplay(stack.enter_context(Progress(quiet=options.quiet)))
         recorder = Recorder(store, run_id)
         try:

@@ -13,6 +13,7 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[2]
 ROUTINE = ROOT / "sequences" / "routine_single_phase.yaml"
+SHORT = ROOT / "tests" / "runner" / "sequences" / "no_load_only.yaml"   # a short run: the no-load test alone
 
 
 def harness(*args: str, data: Path, timeout: float = 240) -> subprocess.CompletedProcess[str]:

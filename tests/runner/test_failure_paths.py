@@ -26,9 +26,7 @@ from harness.runner.prepare import RunOptions
 from harness.runner.run import execute
 from harness.store import Store
 from harness.store.journal import read_journal
-from tests.runner.conftest import ROOT, harness
-
-SHORT = ROOT / "tests" / "runner" / "sequences" / "no_load_only.yaml"
+from tests.runner.conftest import SHORT, harness
 
 
 @pytest.fixture(autouse=True)

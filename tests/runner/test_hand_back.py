@@ -10,9 +10,7 @@ from harness.runner.prepare import RunOptions
 from harness.runner.reporting import write_in_background
 from harness.runner.run import execute
 from harness.store import Store
-from tests.runner.conftest import ROOT
-
-SHORT = ROOT / "tests" / "runner" / "sequences" / "no_load_only.yaml"
+from tests.runner.conftest import SHORT
 
 
 def test_a_stopped_run_hands_back_before_its_report_which_is_still_written(tmp_path: Path) -> None:

@@ -8,8 +8,9 @@ about 2 % impedance and special units lower is common practice, no source.
 
 Every run here is on a stepped clock (``stepped_clock``): the bay's time moves only when the
 runner sleeps, so the bay time between two readings is the update interval whatever the host's
-load, and a run gives the same readings every time. (On the scaled real clock a busy host stretched it: the source
-slewed on between two late readings, and a test of what the ramp sees next depended on the host.)
+load, and a run gives the same readings every time. (On the scaled real clock a busy host
+stretched it: the source slewed on between two late readings, and a test of what the ramp sees
+next depended on the host.)
 """
 
 from __future__ import annotations
@@ -66,7 +67,8 @@ def sequence_text(ramps: list[tuple[str, str]], quantity: str = "current", drop_
     return head + "steps:\n" + "\n".join(steps) + "\n"
 
 
-def run(tmp_path: Path, scenario: Scenario | None, text: str) -> tuple[Any, dict[str, np.ndarray], list[dict[str, Any]]]:
+def run(tmp_path: Path, scenario: Scenario | None,
+        text: str) -> tuple[Any, dict[str, np.ndarray], list[dict[str, Any]]]:
     options = RunOptions(tmp_path / "seq.yaml", yes=True, quiet=True, stepped_clock=True)
     options.sequence.write_text(text, encoding="utf-8")
     if scenario is not None:

@@ -18,7 +18,8 @@ CASES = [("routine_large_single_phase.yaml", "large"), ("routine_aluminium_disto
 def scenario_run(request, tmp_path_factory):
     sequence, scenario = request.param
     data = tmp_path_factory.mktemp(scenario)
-    code, doc, _ = run_json(str(ROOT / "sequences" / sequence), "--sim", scenario, "--yes", "--stepped-clock", data=data)
+    code, doc, _ = run_json(str(ROOT / "sequences" / sequence), "--sim", scenario, "--yes", "--stepped-clock",
+                            data=data)
     truth = json.loads(harness("sim", "truth", scenario, "--json", data=data).stdout)
     return scenario, code, doc, truth
 

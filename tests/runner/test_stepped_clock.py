@@ -15,9 +15,8 @@ from harness.runner.prepare import RunOptions, prepare
 from harness.runner.run import execute
 from harness.runner.sim_station import sim_station_text
 from harness.store import Store
-from tests.runner.conftest import ROOT, ROUTINE, harness
+from tests.runner.conftest import ROUTINE, SHORT, harness
 
-SHORT = ROOT / "tests" / "runner" / "sequences" / "no_load_only.yaml"
 COLUMNS = ("step_index", "t", "u_rms", "u_mean", "i_rms", "p", "setpoint")
 
 

@@ -20,7 +20,8 @@ CASES = [("routine_three_phase.yaml", "three-phase"), ("routine_large_three_phas
 def three_phase_run(request, tmp_path_factory):
     sequence, scenario = request.param
     data = tmp_path_factory.mktemp(scenario)
-    code, doc, _ = run_json(str(ROOT / "sequences" / sequence), "--sim", scenario, "--yes", "--stepped-clock", data=data)
+    code, doc, _ = run_json(str(ROOT / "sequences" / sequence), "--sim", scenario, "--yes", "--stepped-clock",
+                            data=data)
     truth = json.loads(harness("sim", "truth", scenario, "--json", data=data).stdout)
     return code, doc, truth, data
 
